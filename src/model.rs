@@ -13,6 +13,16 @@ pub const MODEL_VERSION: u64 = 1;
 /// Longest model text accepted, in bytes.
 pub const MAX_MODEL_BYTES: usize = 1 << 20;
 
+thread_local! {
+    static PARSES: std::cell::Cell<u64> = const { std::cell::Cell::new(0) };
+}
+
+/// How many models this thread has parsed: lets tests and benchmarks check
+/// that a reader over many rows parses a constant model once per statement.
+pub fn parses_on_this_thread() -> u64 {
+    PARSES.with(|c| c.get())
+}
+
 /// How a model was fitted and to what.
 #[derive(Debug, Clone, PartialEq)]
 pub struct FitSummary {
@@ -66,6 +76,7 @@ impl Model {
 
     /// Parses model JSON text, checking every value it relies on.
     pub fn parse(text: &str) -> LifeResult<Model> {
+        PARSES.with(|c| c.set(c.get() + 1));
         if text.len() > MAX_MODEL_BYTES {
             return Err(LifeError::BadModel(format!(
                 "is {} bytes long, more than the {} a model can be",

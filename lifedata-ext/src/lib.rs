@@ -97,3 +97,53 @@ pub unsafe extern "C" fn sqlite3_extension_init(
 ) -> c_int {
     sqlite3_lifedata_init(db, pz_err_msg, p_api)
 }
+
+#[cfg(test)]
+mod tests {
+    //! The version guard, driven with a fake API table as an old host would
+    //! pass it (no old SQLite is needed to check the message).
+    use super::*;
+    use std::ffi::CStr;
+    use std::os::raw::c_void;
+
+    extern "C" {
+        fn malloc(n: usize) -> *mut c_void;
+        fn free(p: *mut c_void);
+    }
+    unsafe extern "C" fn old_version() -> c_int {
+        3_031_001
+    }
+    unsafe extern "C" fn host_malloc(n: c_int) -> *mut c_void {
+        malloc(n as usize)
+    }
+
+    #[test]
+    fn old_host_gets_a_clear_error_not_an_abort() {
+        unsafe {
+            let mut api: ffi::sqlite3_api_routines = std::mem::zeroed();
+            api.libversion_number = Some(old_version);
+            api.malloc = Some(host_malloc);
+            let mut msg: *mut c_char = std::ptr::null_mut();
+            // Any non-null handle: the guard must refuse before touching it.
+            let db = std::ptr::NonNull::<ffi::sqlite3>::dangling().as_ptr();
+            let rc = sqlite3_lifedata_init(db, &mut msg, &mut api);
+            assert_eq!(rc, ffi::SQLITE_ERROR);
+            assert!(!msg.is_null());
+            let text = CStr::from_ptr(msg).to_str().unwrap().to_owned();
+            free(msg as *mut c_void);
+            assert_eq!(
+                text,
+                "lifedata needs SQLite 3.34.1 or newer; this host runs 3.31.1"
+            );
+        }
+    }
+
+    #[test]
+    fn missing_api_table_is_refused() {
+        unsafe {
+            let db = std::ptr::NonNull::<ffi::sqlite3>::dangling().as_ptr();
+            let rc = sqlite3_lifedata_init(db, std::ptr::null_mut(), std::ptr::null_mut());
+            assert_eq!(rc, ffi::SQLITE_ERROR);
+        }
+    }
+}

@@ -1,0 +1,270 @@
+//! The product as users get it: the real loadable library, built from this
+//! tree, loaded into the stock `sqlite3` shell and into Python's `sqlite3`.
+//!
+//! The library is built with its own target directory, never in the same
+//! build as the bundled SQLite these tests link (rusqlite's `bundled` and
+//! `loadable_extension` features must not meet).
+
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output, Stdio};
+use std::sync::OnceLock;
+
+const ROOT: &str = env!("CARGO_MANIFEST_DIR");
+
+/// Builds `liblifedata.so` once per test run and returns its path without
+/// the `.so`, as a user would type it after `.load`.
+fn library() -> &'static str {
+    static LIB: OnceLock<String> = OnceLock::new();
+    LIB.get_or_init(|| {
+        let target = Path::new(env!("CARGO_TARGET_TMPDIR")).join("extension-build");
+        let status = Command::new(env!("CARGO"))
+            .args(["build", "--release", "-p", "lifedata-ext", "--target-dir"])
+            .arg(&target)
+            .current_dir(ROOT)
+            .status()
+            .expect("run cargo build for the extension");
+        assert!(status.success(), "building the extension failed");
+        let lib = target.join("release").join("liblifedata");
+        assert!(
+            lib.with_extension("so").exists(),
+            "{} missing",
+            lib.display()
+        );
+        lib.to_string_lossy().into_owned()
+    })
+}
+
+fn sqlite3_shell() -> &'static str {
+    static SHELL: OnceLock<String> = OnceLock::new();
+    SHELL.get_or_init(|| {
+        let ok = Command::new("sqlite3")
+            .arg("--version")
+            .output()
+            .map(|o| o.status.success())
+            .unwrap_or(false);
+        assert!(
+            ok,
+            "the sqlite3 shell is needed for these tests: install it (Debian: apt-get install sqlite3)"
+        );
+        "sqlite3".to_string()
+    })
+}
+
+/// Runs `script` in the sqlite3 shell with the extension loaded.
+fn shell(db: &str, script: &str) -> Output {
+    let mut child = Command::new(sqlite3_shell())
+        .arg(db)
+        .current_dir(ROOT)
+        .stdin(Stdio::piped())
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
+        .unwrap();
+    let full = format!(".load {}\n{script}\n", library());
+    use std::io::Write;
+    child
+        .stdin
+        .take()
+        .unwrap()
+        .write_all(full.as_bytes())
+        .unwrap();
+    child.wait_with_output().unwrap()
+}
+
+fn text(b: &[u8]) -> String {
+    String::from_utf8_lossy(b).into_owned()
+}
+
+#[test]
+fn loads_by_file_name_and_fits_in_the_shell() {
+    let out = shell(
+        ":memory:",
+        "SELECT sqlite_version();
+         WITH lz(t) AS (VALUES (17.88),(28.92),(33.00),(41.52),(42.12),(45.60),(48.48),(51.84),
+           (51.96),(54.12),(55.56),(67.80),(68.64),(68.64),(68.88),(84.12),(93.12),(98.64),
+           (105.12),(105.84),(127.92),(128.04),(173.40))
+         SELECT printf('%.6f %.4f', json_extract(m, '$.shape'), json_extract(m, '$.scale'))
+         FROM (SELECT life_fit(t, 1) AS m FROM lz);",
+    );
+    let stdout = text(&out.stdout);
+    assert!(out.status.success(), "{}{}", stdout, text(&out.stderr));
+    let lines: Vec<&str> = stdout.lines().collect();
+    eprintln!("sqlite3 shell {}", lines[0]);
+    // Lieblein & Zelen (1956) bearings; scipy 1.17.1 reference in fixtures.
+    assert_eq!(lines[1], "2.102059 81.8783");
+}
+
+/// tests/cases/bad_input.tsv, each line in its own shell process against a
+/// file database: an SQL error naming function and value, exit status 1
+/// (never a signal), and the database file unchanged.
+#[test]
+fn bad_input_in_the_stock_shell() {
+    let dir = Path::new(env!("CARGO_TARGET_TMPDIR")).join("bad-input");
+    std::fs::create_dir_all(&dir).unwrap();
+    let db = dir.join("fleet.db");
+    let _ = std::fs::remove_file(&db);
+    let setup = shell(
+        db.to_str().unwrap(),
+        "CREATE TABLE life(age REAL, failed INT); INSERT INTO life VALUES (10,1),(20,0),(30,1);",
+    );
+    assert!(setup.status.success(), "{}", text(&setup.stderr));
+    let before = std::fs::read(&db).unwrap();
+    let model = r#"'{"dist":"weibull","shape":2,"scale":1000}'"#;
+    let table = include_str!("cases/bad_input.tsv");
+    let mut count = 0;
+    for line in table
+        .lines()
+        .filter(|l| !l.starts_with('#') && !l.is_empty())
+    {
+        let (sql, want) = line.split_once('\t').unwrap();
+        let sql = sql.replace("$M", model);
+        let out = shell(db.to_str().unwrap(), &sql);
+        let stderr = text(&out.stderr);
+        assert_eq!(out.status.code(), Some(1), "{sql}: {stderr}");
+        assert!(
+            stderr.contains(want),
+            "{sql}\n  got:  {stderr}\n  want: {want}"
+        );
+        count += 1;
+    }
+    assert_eq!(std::fs::read(&db).unwrap(), before, "the database changed");
+    eprintln!("{count} bad inputs refused in the sqlite3 shell");
+}
+
+/// Every ```sql example in README.md that is followed by a ```text block
+/// is run in the shell, and its output must be exactly that block.
+#[test]
+fn readme_examples_print_what_the_readme_says() {
+    let readme = std::fs::read_to_string(Path::new(ROOT).join("README.md")).unwrap();
+    let mut examples = 0;
+    let mut covered = String::new();
+    let mut rest = readme.as_str();
+    while let Some(start) = rest.find("```sql\n") {
+        let after = &rest[start + 7..];
+        let end = after.find("```").unwrap();
+        let sql = &after[..end];
+        rest = &after[end + 3..];
+        let Some(out_block) = rest.strip_prefix("\n```text\n") else {
+            continue;
+        };
+        let out_end = out_block.find("```").unwrap();
+        let want = &out_block[..out_end];
+        rest = &out_block[out_end + 3..];
+        let out = shell(":memory:", sql);
+        assert!(out.status.success(), "{sql}\n{}", text(&out.stderr));
+        assert_eq!(text(&out.stdout), want, "README example:\n{sql}");
+        covered.push_str(sql);
+        examples += 1;
+    }
+    // Every function has at least one checked example.
+    for f in [
+        "life_fit(",
+        "life_quantile(",
+        "life_cdf(",
+        "life_reliability(",
+        "life_pdf(",
+        "life_hazard(",
+        "life_mean(",
+        "life_cond_fail(",
+        "life_replace_age(",
+        "life_usage(",
+    ] {
+        assert!(covered.contains(f), "no checked README example uses {f}");
+    }
+    eprintln!("{examples} README examples checked");
+}
+
+/// The demo command's SQL runs in the shell and prints every class.
+#[test]
+fn demo_runs_in_the_shell() {
+    // The demo loads ./target/release/liblifedata; point it at this build.
+    let script = std::fs::read_to_string(Path::new(ROOT).join("sql/demo.sql")).unwrap();
+    let script = script.replace(".load ./target/release/liblifedata", "");
+    let out = shell("", &script);
+    let stdout = text(&out.stdout);
+    assert!(out.status.success(), "{stdout}{}", text(&out.stderr));
+    for class in [
+        "air compressor",
+        "alternator",
+        "coolant pump",
+        "door actuator",
+        "starter motor",
+    ] {
+        assert!(stdout.contains(class), "{class} missing from\n{stdout}");
+    }
+    assert!(stdout.contains("INVENTED"));
+    assert!(stdout.contains("licensed engineers"));
+}
+
+fn python_with_extensions() -> Option<PathBuf> {
+    // Debian's own python3 has enable_load_extension; a pyenv build may not.
+    for candidate in ["/usr/bin/python3", "python3"] {
+        let ok = Command::new(candidate)
+            .args([
+                "-c",
+                "import sqlite3; sqlite3.connect(':memory:').enable_load_extension(True)",
+            ])
+            .output()
+            .map(|o| o.status.success())
+            .unwrap_or(false);
+        if ok {
+            return Some(PathBuf::from(candidate));
+        }
+    }
+    None
+}
+
+#[test]
+fn loads_into_python_sqlite3() {
+    let Some(python) = python_with_extensions() else {
+        eprintln!("SKIPPED: no python3 whose sqlite3 module can load extensions");
+        return;
+    };
+    let program = r#"
+import sqlite3, sys
+con = sqlite3.connect(":memory:")
+con.enable_load_extension(True)
+con.load_extension(sys.argv[1])
+con.enable_load_extension(False)
+con.execute("CREATE TABLE life(age REAL, failed INT)")
+con.executemany("INSERT INTO life VALUES (?, ?)",
+                [(17.88,1),(28.92,1),(33.0,1),(41.52,1),(42.12,1),(45.6,1),(48.48,1),(51.84,1),
+                 (51.96,1),(54.12,1),(55.56,1),(67.8,1),(68.64,1),(68.64,1),(68.88,1),(84.12,1),
+                 (93.12,1),(98.64,1),(105.12,1),(105.84,1),(127.92,1),(128.04,1),(173.4,1)])
+m, = con.execute("SELECT life_fit(age, failed) FROM life").fetchone()
+b10, = con.execute("SELECT life_quantile(?, 0.1)", (m,)).fetchone()
+print(sqlite3.sqlite_version, "%.4f" % b10)
+try:
+    con.execute("SELECT life_quantile(?, 2)", (m,)).fetchone()
+except sqlite3.OperationalError as e:
+    print(e)
+"#;
+    let out = Command::new(&python)
+        .args(["-c", program, library()])
+        .output()
+        .unwrap();
+    let stdout = text(&out.stdout);
+    assert!(out.status.success(), "{stdout}{}", text(&out.stderr));
+    let lines: Vec<&str> = stdout.lines().collect();
+    eprintln!("python sqlite3 {}", lines[0]);
+    // B10 of the Lieblein & Zelen fit: scale * (-ln 0.9)^(1/shape) with the
+    // scipy reference estimates (2.1020589, 81.878334) gives 28.7 (to 4 d.p. below).
+    let b10: f64 = lines[0].split(' ').nth(1).unwrap().parse().unwrap();
+    let want = 81.878_334 * (-(0.9f64).ln()).powf(1.0 / 2.102_058_9);
+    assert!((b10 - want).abs() < 1e-3, "{b10} vs {want}");
+    assert_eq!(lines[1], "life_quantile: p must be in [0, 1), got 2");
+}
+
+/// The loader's guard against hosts older than the minimum SQLite version,
+/// checked by the extension package's own unit tests (a fake API table).
+#[test]
+fn old_host_guard_unit_tests_pass() {
+    let target = Path::new(env!("CARGO_TARGET_TMPDIR")).join("extension-build");
+    let status = Command::new(env!("CARGO"))
+        .args(["test", "--release", "-p", "lifedata-ext", "--target-dir"])
+        .arg(&target)
+        .current_dir(ROOT)
+        .status()
+        .unwrap();
+    assert!(status.success());
+}
