@@ -94,7 +94,14 @@ pub fn optimal_replacement_age(
     // Bracket the root: phi(0) < 0; walk up from the median until phi > 0.
     let mut lo = 0.0;
     let mut hi = d.quantile(0.5);
-    loop {
+    if !(hi.is_finite() && hi > 0.0) {
+        // A model so extreme that its median is not a positive number has no
+        // usable optimum (and doubling from zero would never end).
+        return Ok(None);
+    }
+    // Doubling from a positive double reaches infinity (then phi is NaN or
+    // the cumulative hazard exceeds the limit) in at most ~2100 steps.
+    for _ in 0..4096 {
         let f = problem.phi(hi);
         if f.is_nan() {
             return Ok(None);
@@ -107,6 +114,9 @@ pub fn optimal_replacement_age(
         }
         lo = hi;
         hi *= 2.0;
+    }
+    if problem.phi(hi).is_nan() || problem.phi(hi) <= 0.0 {
+        return Ok(None);
     }
     let solver = BrentRoot::new(lo, hi, 0.0);
     let result = Executor::new(problem, solver)

@@ -279,3 +279,104 @@ fn usage_matches_sqlite_julianday() {
     let default: f64 = one(&c, "SELECT life_usage('2024-06-01', '2024-06-02')");
     assert_eq!(default, 24.0);
 }
+
+/// Extreme but valid models and arguments never crash, hang or panic: each
+/// call returns a number, NULL, or an error that names the function.
+#[test]
+fn extreme_values_never_panic() {
+    let c = conn();
+    let tiny_big = [
+        "1e-300", "1e-10", "0.01", "1", "50", "1e10", "1e300", "5e-324",
+    ];
+    let ages = [
+        "0",
+        "5e-324",
+        "1e-300",
+        "1",
+        "1e300",
+        "1.7976931348623157e308",
+    ];
+    let probs = ["0", "5e-324", "1e-300", "0.5", "0.9999999999999999"];
+    let mut calls = 0;
+    for shape in tiny_big {
+        for scale in tiny_big {
+            let m = format!(r#"'{{"dist":"weibull","shape":{shape},"scale":{scale}}}'"#);
+            let mut sqls = vec![
+                format!("SELECT life_mean({m})"),
+                format!("SELECT life_replace_age({m}, 1, 10)"),
+                format!("SELECT life_replace_age({m}, 1, 1e300)"),
+            ];
+            for t in ages {
+                for f in ["life_cdf", "life_reliability", "life_pdf", "life_hazard"] {
+                    sqls.push(format!("SELECT {f}({m}, {t})"));
+                }
+                for h in ages {
+                    sqls.push(format!("SELECT life_cond_fail({m}, {t}, {h})"));
+                }
+            }
+            for p in probs {
+                sqls.push(format!("SELECT life_quantile({m}, {p})"));
+            }
+            for sql in sqls {
+                calls += 1;
+                match c.query_row(&sql, [], |r| r.get::<_, Option<f64>>(0)) {
+                    Ok(_) => {}
+                    Err(Error::SqliteFailure(_, Some(msg))) => {
+                        assert!(msg.starts_with("life_"), "{sql}: {msg}");
+                        assert!(!msg.contains("panic"), "{sql}: {msg}");
+                    }
+                    Err(e) => panic!("{sql}: {e}"),
+                }
+            }
+        }
+    }
+    eprintln!("{calls} extreme calls answered");
+}
+
+/// Hostile data sets for the fit: extreme spans of age, near-degenerate
+/// failure patterns, huge tie counts. Each gives a model or a named error.
+#[test]
+fn hostile_fits_give_a_model_or_a_named_error() {
+    let c = conn();
+    for rows in [
+        "(1e-300,1),(1e300,1)",
+        "(1e-300,1),(2e-300,1),(1e300,0)",
+        "(5e-324,1),(1e-323,1)",
+        "(1,1),(1.0000000000000002,1)",
+        "(1,1),(1.0000000000000002,0)",
+        "(0,0),(0,0),(3,1),(4,1)",
+        "(1e308,1),(1.7976931348623157e308,1)",
+        "(10,1),(10,1),(10,1),(11,0)",
+        "(1,1),(1e6,0),(1e6,0),(1e6,0)",
+    ] {
+        let sql = format!("SELECT life_fit(a, f) FROM (VALUES {rows}) AS v(a, f)");
+        let sql = sql.replace("AS v(a, f)", "");
+        let sql = sql.replace("life_fit(a, f)", "life_fit(column1, column2)");
+        match c.query_row(&sql, [], |r| r.get::<_, Option<String>>(0)) {
+            Ok(Some(m)) => {
+                let v: serde_json::Value = serde_json::from_str(&m).unwrap();
+                let shape = v["shape"].as_f64().unwrap();
+                assert!(shape.is_finite() && shape > 0.0, "{rows}: {m}");
+                // The model it wrote must read back.
+                let b10: Option<f64> = c
+                    .query_row("SELECT life_quantile(?1, 0.1)", [&m], |r| r.get(0))
+                    .unwrap();
+                assert!(b10.is_some(), "{rows}");
+            }
+            Ok(None) => panic!("{rows}: NULL"),
+            Err(Error::SqliteFailure(_, Some(msg))) => {
+                assert!(msg.starts_with("life_fit: "), "{rows}: {msg}");
+                assert!(!msg.contains("panic"), "{rows}: {msg}");
+            }
+            Err(e) => panic!("{rows}: {e}"),
+        }
+    }
+    // A million tied rows merge into two groups.
+    let m: String = one(
+        &c,
+        "WITH RECURSIVE k(i) AS (SELECT 1 UNION ALL SELECT i+1 FROM k WHERE i < 1000000)
+         SELECT life_fit(CASE WHEN i % 3 = 0 THEN 100 ELSE 250 END, i % 3 = 0 OR i % 7 = 0) FROM k",
+    );
+    let v: serde_json::Value = serde_json::from_str(&m).unwrap();
+    assert_eq!(v["n"], 1_000_000);
+}
