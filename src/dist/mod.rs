@@ -1,8 +1,10 @@
 //! Life distributions: one file per family, each reading like its formulas.
 //!
 //! A family knows its cumulative hazard, log-density, hazard, quantile, mean
-//! and the integral of its survival function. It knows nothing of censoring,
-//! SQL or JSON: those are written once, elsewhere, for every family.
+//! and the integral of its survival function, plus a few facts the generic
+//! machinery needs (parameter kinds, a start value, how to pin a percentile,
+//! its probability-plot axes). It knows nothing of censoring, SQL or JSON:
+//! those are written once, elsewhere, for every family.
 //! To add a family, write one file here and list it in [`FAMILIES`].
 
 pub mod weibull;
@@ -26,7 +28,7 @@ pub trait LifeDistribution: Send + Sync + std::fmt::Debug {
     fn hazard(&self, t: f64) -> f64;
     /// Age by which a fraction `p` (0 <= p < 1) has failed.
     fn quantile(&self, p: f64) -> f64;
-    /// Mean life (mean time to failure).
+    /// Mean life (mean time to failure); infinite where it does not exist.
     fn mean(&self) -> f64;
     /// Integral of the reliability from 0 to `t`: the expected usage a unit
     /// delivers before failure or before `t`, whichever comes first.
@@ -63,6 +65,16 @@ pub trait LifeDistribution: Send + Sync + std::fmt::Debug {
     }
 }
 
+/// What values a parameter may take; fixes its unconstrained coordinate
+/// for the optimiser (log for positive parameters, itself otherwise).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum ParamKind {
+    /// Strictly positive (shape, scale, sigma): optimised as its logarithm.
+    Positive,
+    /// Any real number (a location on the log or linear age axis).
+    Real,
+}
+
 /// Description of one parameter, in the trade's words.
 #[derive(Debug)]
 pub struct ParamInfo {
@@ -70,6 +82,41 @@ pub struct ParamInfo {
     pub name: &'static str,
     /// What the parameter means to a reliability engineer.
     pub meaning: &'static str,
+    /// Range of the parameter.
+    pub kind: ParamKind,
+}
+
+/// Summary of roughly-placed ages (failures at their age, intervals at their
+/// midpoint) from which a family derives a start value for the optimiser.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct StartSummary {
+    /// Weighted mean of the ages.
+    pub mean: f64,
+    /// Weighted standard deviation of the ages.
+    pub sd: f64,
+    /// Weighted mean of the log-ages (ages > 0).
+    pub mean_ln: f64,
+    /// Weighted standard deviation of the log-ages.
+    pub sd_ln: f64,
+    /// Smallest age at which a failure is known to have happened (or could have).
+    pub first_failure: f64,
+}
+
+/// Probability-plot axes of a family: the plot of y(F) against x(t) is a
+/// straight line y = intercept + slope * x for every member of the family.
+#[derive(Debug)]
+pub struct Linearisation {
+    /// Horizontal coordinate of an age (ln t or t).
+    pub x: fn(f64) -> f64,
+    /// Vertical coordinate of an unreliability F in (0, 1).
+    pub y: fn(f64) -> f64,
+    /// Inverse of `y`: the unreliability at a plot height.
+    pub y_inv: fn(f64) -> f64,
+    /// Whether the line is forced through the origin (one-parameter families).
+    pub through_origin: bool,
+    /// Parameters from the line's (intercept, slope); None if the slope does
+    /// not give a valid member (e.g. slope <= 0).
+    pub params: fn(f64, f64) -> Option<Vec<f64>>,
 }
 
 /// A family of life distributions: its name, parameters and constructor.
@@ -77,10 +124,59 @@ pub struct ParamInfo {
 pub struct Family {
     /// Name used in options and in the model's `dist` key.
     pub name: &'static str,
+    /// One-line description in the trade's words, for documentation and errors.
+    pub title: &'static str,
     /// The parameters, in the order the constructor takes them.
     pub params: &'static [ParamInfo],
     /// Builds a distribution from parameter values, checking their ranges.
     pub build: fn(&[f64]) -> LifeResult<Box<dyn LifeDistribution>>,
+    /// A start value for maximum likelihood from a rough summary of the data.
+    pub start: fn(&StartSummary) -> Vec<f64>,
+    /// Index of the parameter that [`Family::pin_quantile`] solves for.
+    pub pinned: usize,
+    /// Given parameters, returns them with the `pinned` one changed so that
+    /// the p-quantile equals `t` (None if impossible). Profile-likelihood
+    /// bounds on percentile life and reliability hold a percentile fixed this way.
+    pub pin_quantile: fn(&[f64], f64, f64) -> Option<Vec<f64>>,
+    /// Probability-plot axes, for rank regression and plots; None where the
+    /// family has no straight-line plot (gamma, 3-parameter Weibull).
+    pub linear: Option<Linearisation>,
+}
+
+impl Family {
+    /// Number of parameters.
+    pub fn k(&self) -> usize {
+        self.params.len()
+    }
+
+    /// Natural parameters to unconstrained optimiser coordinates.
+    pub fn to_free(&self, params: &[f64]) -> Vec<f64> {
+        self.params
+            .iter()
+            .zip(params)
+            .map(|(info, &v)| match info.kind {
+                ParamKind::Positive => v.ln(),
+                ParamKind::Real => v,
+            })
+            .collect()
+    }
+
+    /// Unconstrained optimiser coordinates to natural parameters.
+    pub fn from_free(&self, free: &[f64]) -> Vec<f64> {
+        self.params
+            .iter()
+            .zip(free)
+            .map(|(info, &v)| match info.kind {
+                ParamKind::Positive => v.exp(),
+                ParamKind::Real => v,
+            })
+            .collect()
+    }
+
+    /// Position of a parameter by name.
+    pub fn param_index(&self, name: &str) -> Option<usize> {
+        self.params.iter().position(|p| p.name == name)
+    }
 }
 
 /// Every family the extension knows, in the order they are documented.
@@ -109,5 +205,38 @@ pub(crate) fn positive(name: &'static str, value: f64) -> LifeResult<f64> {
             "{name} must be a finite number > 0, got {}",
             crate::error::show_number(value)
         )))
+    }
+}
+
+/// Checks that a parameter is a finite number.
+#[allow(dead_code)] // used by the families with a location parameter
+pub(crate) fn finite(name: &'static str, value: f64) -> LifeResult<f64> {
+    if value.is_finite() {
+        Ok(value)
+    } else {
+        Err(LifeError::BadModel(format!(
+            "{name} must be a finite number, got {}",
+            crate::error::show_number(value)
+        )))
+    }
+}
+
+/// Standard normal quantile, for families and bounds.
+pub fn norm_ppf(p: f64) -> f64 {
+    use statrs::distribution::{ContinuousCDF, Normal};
+    Normal::standard().inverse_cdf(p)
+}
+
+/// Logarithm of the standard normal survival function, accurate far into
+/// the upper tail (where 1 - Phi underflows to 0 long before its log does).
+pub fn ln_norm_sf(z: f64) -> f64 {
+    use statrs::function::erf::erfc;
+    if z < 30.0 {
+        (0.5 * erfc(z / std::f64::consts::SQRT_2)).ln()
+    } else {
+        // Mills-ratio asymptotic series: ln(phi(z)/z (1 - 1/z^2 + 3/z^4 - 15/z^6)).
+        let z2 = z * z;
+        -0.5 * z2 - z.ln() - 0.5 * (2.0 * std::f64::consts::PI).ln()
+            + (1.0 - 1.0 / z2 + 3.0 / (z2 * z2) - 15.0 / (z2 * z2 * z2)).ln()
     }
 }

@@ -4,24 +4,50 @@
 //! = 1 random, > 1 wear-out failures) and scale eta (characteristic life:
 //! the age by which 63.2% have failed).
 
-use super::{positive, Family, LifeDistribution, ParamInfo};
+use super::{positive, Family, LifeDistribution, Linearisation, ParamInfo, ParamKind};
 use crate::error::LifeResult;
 use statrs::function::gamma::{checked_gamma_lr, gamma};
 
 /// The Weibull family entry for [`super::FAMILIES`].
 pub static FAMILY: Family = Family {
     name: "weibull",
+    title: "2-parameter Weibull: R(t) = exp(-(t/scale)^shape)",
     params: &[
         ParamInfo {
             name: "shape",
             meaning: "Weibull slope beta: < 1 early-life, 1 random, > 1 wear-out",
+            kind: ParamKind::Positive,
         },
         ParamInfo {
             name: "scale",
             meaning: "characteristic life eta: age by which 63.2% have failed",
+            kind: ParamKind::Positive,
         },
     ],
     build: |p| Ok(Box::new(Weibull::new(p[0], p[1])?)),
+    // For complete data sd(ln t) = pi / (beta sqrt 6); eta ~ exp(mean ln t + 0.5772/beta).
+    start: |s| {
+        let beta = if s.sd_ln > 0.0 {
+            (std::f64::consts::PI / (6f64.sqrt() * s.sd_ln)).clamp(0.05, 50.0)
+        } else {
+            1.0
+        };
+        vec![beta, (s.mean_ln + 0.5772 / beta).exp()]
+    },
+    pinned: 1,
+    // t_p = eta (-ln(1-p))^(1/beta)  =>  eta = t / (-ln(1-p))^(1/beta)
+    pin_quantile: |p, prob, t| {
+        let eta = t / (-(-prob).ln_1p()).powf(1.0 / p[0]);
+        (eta.is_finite() && eta > 0.0).then(|| vec![p[0], eta])
+    },
+    // ln(-ln(1 - F)) = beta ln t - beta ln eta
+    linear: Some(Linearisation {
+        x: f64::ln,
+        y: |f| (-(-f).ln_1p()).ln(),
+        y_inv: |y| -(-y.exp()).exp_m1(),
+        through_origin: false,
+        params: |a, b| (b > 0.0).then(|| vec![b, (-a / b).exp()]),
+    }),
 };
 
 /// A Weibull distribution with shape `beta` and scale `eta`.
