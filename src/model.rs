@@ -6,6 +6,7 @@
 
 use crate::dist::{self, LifeDistribution};
 use crate::error::{show_number, LifeError, LifeResult};
+use crate::sample::{Obs, Sample};
 use serde_json::{json, Map, Value};
 
 /// Version of the JSON layout written by this extension.
@@ -23,6 +24,16 @@ pub fn parses_on_this_thread() -> u64 {
     PARSES.with(|c| c.get())
 }
 
+/// What the known-shape (few or zero failures) method needs for its
+/// chi-square bound on the Weibull scale.
+#[derive(Debug, Clone, PartialEq)]
+pub struct KnownShape {
+    /// Sum over units of t^shape - entry^shape.
+    pub exposure: f64,
+    /// Number of failures r.
+    pub failures: u64,
+}
+
 /// How a model was fitted and to what.
 #[derive(Debug, Clone, PartialEq)]
 pub struct FitSummary {
@@ -30,16 +41,29 @@ pub struct FitSummary {
     pub method: String,
     /// Number of unit lives used.
     pub n: u64,
-    /// Number of failures.
+    /// Number of exactly observed failures.
     pub failures: u64,
     /// Number of suspensions.
     pub suspensions: u64,
+    /// Number of left-censored lives (found failed at the first inspection).
+    pub left_censored: u64,
+    /// Number of interval-censored lives.
+    pub interval_censored: u64,
+    /// Number of lives observed from an entry age above 0 (left truncation).
+    pub truncated: u64,
     /// Rows skipped because their age was NULL.
     pub skipped: u64,
     /// Maximised log-likelihood (densities in the data's age unit).
     pub loglik: f64,
-    /// Covariance matrix of the parameter estimates, in the family's parameter order.
+    /// Covariance matrix of the parameter estimates, in the family's
+    /// parameter order (empty where the estimator gives none).
     pub cov: Vec<Vec<f64>>,
+    /// Names of parameters held at known values.
+    pub fixed: Vec<String>,
+    /// Inputs of the known-shape chi-square bound, where it applies.
+    pub known: Option<KnownShape>,
+    /// The merged observations, when the fit was asked to keep them.
+    pub sample: Option<Vec<Obs>>,
 }
 
 /// A life model: a distribution, and how it was fitted if it was.
@@ -66,10 +90,44 @@ impl Model {
             m.insert("n".into(), json!(f.n));
             m.insert("failures".into(), json!(f.failures));
             m.insert("suspensions".into(), json!(f.suspensions));
+            if f.left_censored > 0 {
+                m.insert("left_censored".into(), json!(f.left_censored));
+            }
+            if f.interval_censored > 0 {
+                m.insert("interval_censored".into(), json!(f.interval_censored));
+            }
+            if f.truncated > 0 {
+                m.insert("truncated".into(), json!(f.truncated));
+            }
             m.insert("skipped".into(), json!(f.skipped));
             m.insert("loglik".into(), json!(f.loglik));
-            let names: Vec<&str> = fam.params.iter().map(|p| p.name).collect();
-            m.insert("cov".into(), json!({"params": names, "matrix": f.cov}));
+            if !f.cov.is_empty() {
+                let names: Vec<&str> = fam.params.iter().map(|p| p.name).collect();
+                m.insert("cov".into(), json!({"params": names, "matrix": f.cov}));
+            }
+            if !f.fixed.is_empty() {
+                m.insert("fixed".into(), json!(f.fixed));
+            }
+            if let Some(k) = &f.known {
+                m.insert(
+                    "known_shape".into(),
+                    json!({"exposure": k.exposure, "failures": k.failures}),
+                );
+            }
+            if let Some(obs) = &f.sample {
+                let rows: Vec<Value> = obs
+                    .iter()
+                    .map(|o| {
+                        let latest = if o.latest.is_finite() {
+                            json!(o.latest)
+                        } else {
+                            Value::Null
+                        };
+                        json!([o.earliest, latest, o.entry, o.count])
+                    })
+                    .collect();
+                m.insert("sample".into(), Value::Array(rows));
+            }
         }
         Value::Object(m).to_string()
     }
@@ -165,13 +223,27 @@ fn parse_fit(map: &Map<String, Value>, k: usize) -> LifeResult<Option<FitSummary
             ))
         })
     };
+    let optional = |key: &str| -> LifeResult<u64> {
+        if map.contains_key(key) {
+            count(key)
+        } else {
+            Ok(0)
+        }
+    };
     let n = count("n")?;
     let failures = count("failures")?;
     let suspensions = count("suspensions")?;
-    let skipped = map.get("skipped").and_then(Value::as_u64).unwrap_or(0);
-    if failures + suspensions != n {
+    let left_censored = optional("left_censored")?;
+    let interval_censored = optional("interval_censored")?;
+    let truncated = optional("truncated")?;
+    let skipped = optional("skipped")?;
+    let total = [failures, suspensions, left_censored, interval_censored]
+        .iter()
+        .try_fold(0u64, |a, &b| a.checked_add(b));
+    if total != Some(n) {
         return Err(LifeError::BadModel(format!(
-            "counts disagree: failures {failures} + suspensions {suspensions} != n {n}"
+            "counts disagree: failures {failures} + suspensions {suspensions} + \
+             left_censored {left_censored} + interval_censored {interval_censored} != n {n}"
         )));
     }
     let loglik = map
@@ -210,15 +282,90 @@ fn parse_fit(map: &Map<String, Value>, k: usize) -> LifeResult<Option<FitSummary
             cov.push(out);
         }
     }
+    let fixed = match map.get("fixed") {
+        None => Vec::new(),
+        Some(Value::Array(a)) if a.len() <= k => a
+            .iter()
+            .map(|v| v.as_str().map(str::to_string))
+            .collect::<Option<Vec<_>>>()
+            .ok_or_else(|| LifeError::BadModel("fixed must list parameter names".into()))?,
+        Some(_) => {
+            return Err(LifeError::BadModel(
+                "fixed must list parameter names".into(),
+            ))
+        }
+    };
+    let known = match map.get("known_shape") {
+        None => None,
+        Some(v) => {
+            let exposure = v.get("exposure").and_then(Value::as_f64);
+            let r = v.get("failures").and_then(Value::as_u64);
+            match (exposure, r) {
+                (Some(e), Some(r)) if e.is_finite() && e > 0.0 => Some(KnownShape {
+                    exposure: e,
+                    failures: r,
+                }),
+                _ => {
+                    return Err(LifeError::BadModel(
+                        "known_shape must hold a positive exposure and a failure count".into(),
+                    ))
+                }
+            }
+        }
+    };
+    let sample = match map.get("sample") {
+        None => None,
+        Some(v) => Some(parse_sample(v)?),
+    };
     Ok(Some(FitSummary {
         method,
         n,
         failures,
         suspensions,
+        left_censored,
+        interval_censored,
+        truncated,
         skipped,
         loglik,
         cov,
+        fixed,
+        known,
+        sample,
     }))
+}
+
+/// Reads a kept sample: rows of [earliest, latest or null, entry, count],
+/// each validated as if it had arrived through the fit.
+fn parse_sample(v: &Value) -> LifeResult<Vec<Obs>> {
+    let rows = v
+        .as_array()
+        .ok_or_else(|| LifeError::BadModel("sample must be an array of rows".into()))?;
+    let mut out = Vec::with_capacity(rows.len());
+    for row in rows {
+        let bad = || {
+            LifeError::BadModel(format!(
+                "sample rows must be [earliest, latest or null, entry, count], got {}",
+                clip(&row.to_string())
+            ))
+        };
+        let r = row.as_array().filter(|r| r.len() == 4).ok_or_else(bad)?;
+        let earliest = r[0].as_f64().ok_or_else(bad)?;
+        let latest = if r[1].is_null() {
+            None
+        } else {
+            Some(r[1].as_f64().ok_or_else(bad)?)
+        };
+        let entry = r[2].as_f64().ok_or_else(bad)?;
+        let count = r[3]
+            .as_f64()
+            .filter(|c| c.fract() == 0.0 && *c >= 1.0)
+            .ok_or_else(bad)?;
+        let o = Sample::observation(earliest, latest, entry, count as u64).map_err(|e| {
+            LifeError::BadModel(format!("sample row {}: {e}", clip(&row.to_string())))
+        })?;
+        out.push(o);
+    }
+    Ok(out)
 }
 
 /// Shortens hostile or huge text for an error message.
