@@ -62,6 +62,10 @@ pub struct FitSummary {
     pub fixed: Vec<String>,
     /// Inputs of the known-shape chi-square bound, where it applies.
     pub known: Option<KnownShape>,
+    /// Correlation coefficient of the probability plot (rank regression).
+    pub correlation: Option<f64>,
+    /// Plotting positions used by rank regression (`bernard` or `exact`).
+    pub ranks: Option<String>,
     /// The merged observations, when the fit was asked to keep them.
     pub sample: Option<Vec<Obs>>,
 }
@@ -113,6 +117,12 @@ impl Model {
                     "known_shape".into(),
                     json!({"exposure": k.exposure, "failures": k.failures}),
                 );
+            }
+            if let Some(r) = f.correlation {
+                m.insert("correlation".into(), json!(r));
+            }
+            if let Some(r) = &f.ranks {
+                m.insert("ranks".into(), json!(r));
             }
             if let Some(obs) = &f.sample {
                 let rows: Vec<Value> = obs
@@ -330,6 +340,11 @@ fn parse_fit(map: &Map<String, Value>, k: usize) -> LifeResult<Option<FitSummary
         cov,
         fixed,
         known,
+        correlation: map.get("correlation").and_then(Value::as_f64),
+        ranks: map
+            .get("ranks")
+            .and_then(Value::as_str)
+            .map(|r| r.chars().take(16).collect()),
         sample,
     }))
 }

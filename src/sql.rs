@@ -6,9 +6,9 @@
 
 use crate::decide;
 use crate::error::{show_number, LifeError};
-use crate::fit::{self, FitOptions};
+use crate::fit::{self, bounds, compare, km, FitOptions};
 use crate::model::Model;
-use crate::sample::Sample;
+use crate::sample::{Obs, Sample};
 use crate::usage;
 use rusqlite::functions::{Aggregate, Context, FunctionFlags, WindowAggregate};
 use rusqlite::types::ValueRef;
@@ -141,123 +141,508 @@ fn any_finite(arg: &'static str, x: f64) -> std::result::Result<f64, LifeError> 
     }
 }
 
-/// Running state of `life_fit` for one group or window frame.
+/// The shape of an aggregate's arguments.
+#[derive(Clone, Copy, PartialEq, Eq)]
+enum Form {
+    /// (age, failed [, options])
+    AgeFailed,
+    /// (earliest, latest [, entry [, count [, options]]])
+    Interval,
+}
+
+/// What an aggregate returns.
+#[derive(Clone, Copy, PartialEq, Eq)]
+enum Output {
+    /// One model.
+    Model,
+    /// Every family, ranked.
+    Ranking,
+    /// Likelihood-ratio comparison of groups (first argument: the group).
+    Groups,
+    /// Kaplan-Meier steps.
+    KaplanMeier,
+}
+
+/// A life-data aggregate: which arguments it reads and what it returns.
+struct LifeAggregate {
+    name: &'static str,
+    form: Form,
+    output: Output,
+}
+
+/// Running state of a life-data aggregate for one group or window frame.
 #[derive(Default)]
-struct FitState {
+struct State {
     sample: Sample,
+    /// Per-group samples (group comparison only), in name order.
+    groups: std::collections::BTreeMap<String, Sample>,
     skipped: u64,
     options: Option<(Vec<u8>, FitOptions)>,
+    km_options: Option<km::KmOptions>,
 }
 
-/// The `life_fit` aggregate and window function.
-struct LifeFit;
+impl LifeAggregate {
+    /// Index of the first data argument (after the group, if any).
+    fn first(&self) -> usize {
+        usize::from(self.output == Output::Groups)
+    }
 
-const FIT: &str = "life_fit";
+    /// Index of the options argument.
+    fn options_at(&self) -> usize {
+        self.first()
+            + match self.form {
+                Form::AgeFailed => 2,
+                Form::Interval => 4,
+            }
+    }
 
-impl FitState {
-    /// Reads one row's (age, failed[, options]); None when the age is NULL.
-    fn row(&mut self, ctx: &Context<'_>) -> std::result::Result<Option<(f64, bool)>, LifeError> {
-        if ctx.len() > 2 {
-            match ctx.get_raw(2) {
-                ValueRef::Null => {}
-                ValueRef::Text(t) => match &self.options {
-                    Some((seen, _)) if seen.as_slice() == t => {}
-                    Some(_) => {
-                        return Err(LifeError::BadOptions(
-                            "must be the same on every row of a group".into(),
-                        ))
+    /// Reads the options argument, checking it is the same on every row.
+    fn read_options(
+        &self,
+        ctx: &Context<'_>,
+        st: &mut State,
+    ) -> std::result::Result<(), LifeError> {
+        let at = self.options_at();
+        if ctx.len() <= at {
+            return Ok(());
+        }
+        match ctx.get_raw(at) {
+            ValueRef::Null => Ok(()),
+            ValueRef::Text(t) => match &st.options {
+                Some((seen, _)) if seen.as_slice() == t => Ok(()),
+                Some(_) => Err(LifeError::BadOptions(
+                    "must be the same on every row of a group".into(),
+                )),
+                None => {
+                    let text = std::str::from_utf8(t)
+                        .map_err(|_| LifeError::BadOptions("are not UTF-8 text".into()))?;
+                    if self.output == Output::KaplanMeier {
+                        st.km_options = Some(km::KmOptions::parse(text)?);
+                        st.options = Some((t.to_vec(), FitOptions::default()));
+                    } else {
+                        st.options = Some((t.to_vec(), FitOptions::parse(text)?));
                     }
-                    None => {
-                        let text = std::str::from_utf8(t)
-                            .map_err(|_| LifeError::BadOptions("are not UTF-8 text".into()))?;
-                        self.options = Some((t.to_vec(), FitOptions::parse(text)?));
-                    }
-                },
-                other => {
-                    return Err(LifeError::BadOptions(format!(
-                        "must be JSON text such as '{{\"dist\":\"weibull\"}}', got {}",
-                        describe(other)
-                    )))
+                    Ok(())
+                }
+            },
+            other => Err(LifeError::BadOptions(format!(
+                "must be JSON text such as '{{\"dist\":\"weibull\"}}', got {}",
+                describe(other)
+            ))),
+        }
+    }
+
+    /// Reads one row: None when it is skipped (a NULL age).
+    fn row(
+        &self,
+        ctx: &Context<'_>,
+        st: &mut State,
+    ) -> std::result::Result<Option<(Option<String>, Obs)>, LifeError> {
+        self.read_options(ctx, st)?;
+        let group = if self.output == Output::Groups {
+            match ctx.get_raw(0) {
+                ValueRef::Null => return Ok(None),
+                ValueRef::Integer(i) => Some(i.to_string()),
+                ValueRef::Real(r) => Some(show_number(r)),
+                ValueRef::Text(t) => Some(String::from_utf8_lossy(t).into_owned()),
+                ValueRef::Blob(b) => {
+                    return Err(LifeError::bad(
+                        "group",
+                        "must be text or a number",
+                        format!("a blob of {} bytes", b.len()),
+                    ))
                 }
             }
-        }
-        let Some(age) = number(ctx.get_raw(0), "age")? else {
-            return Ok(None);
+        } else {
+            None
         };
-        let age = age_like("age", age)?;
-        let failed = match ctx.get_raw(1) {
-            ValueRef::Integer(0) => false,
-            ValueRef::Integer(1) => true,
-            ValueRef::Real(0.0) => false,
-            ValueRef::Real(1.0) => true,
-            other => {
-                return Err(LifeError::bad(
-                    "failed",
-                    "must be 1 (failure) or 0 (suspension)",
-                    describe(other),
-                ))
+        let f = self.first();
+        let obs = match self.form {
+            Form::AgeFailed => {
+                let Some(age) = number(ctx.get_raw(f), "age")? else {
+                    return Ok(None);
+                };
+                let age = age_like("age", age)?;
+                let failed = match ctx.get_raw(f + 1) {
+                    ValueRef::Integer(0) => false,
+                    ValueRef::Integer(1) => true,
+                    ValueRef::Real(0.0) => false,
+                    ValueRef::Real(1.0) => true,
+                    other => {
+                        return Err(LifeError::bad(
+                            "failed",
+                            "must be 1 (failure) or 0 (suspension)",
+                            describe(other),
+                        ))
+                    }
+                };
+                if failed && age == 0.0 {
+                    return Err(LifeError::bad("age", "must be > 0 for a failure", "0"));
+                }
+                Sample::observation(age, failed.then_some(age), 0.0, 1)?
+            }
+            Form::Interval => {
+                let earliest = number(ctx.get_raw(f), "earliest")?;
+                let latest = number(ctx.get_raw(f + 1), "latest")?;
+                let entry = if ctx.len() > f + 2 {
+                    number(ctx.get_raw(f + 2), "entry")?.unwrap_or(0.0)
+                } else {
+                    0.0
+                };
+                let count = if ctx.len() > f + 3 {
+                    match number(ctx.get_raw(f + 3), "count")? {
+                        None => return Ok(None),
+                        Some(0.0) => return Ok(None),
+                        Some(c) if c >= 1.0 && c.fract() == 0.0 && c <= 1e15 => c as u64,
+                        Some(c) => {
+                            return Err(LifeError::bad(
+                                "count",
+                                "must be a whole number >= 0",
+                                show_number(c),
+                            ))
+                        }
+                    }
+                } else {
+                    1
+                };
+                match (earliest, latest) {
+                    (None, None) => return Ok(None),
+                    (None, Some(l)) => Sample::observation(0.0, Some(l), entry, count)?,
+                    (Some(e), l) => Sample::observation(e, l, entry, count)?,
+                }
             }
         };
-        Ok(Some((age, failed)))
+        Ok(Some((group, obs)))
     }
 
-    fn model(&self) -> Result<Option<String>> {
-        if self.sample.is_empty() {
-            return Ok(None);
-        }
-        let opts = self
-            .options
+    fn options(st: &State) -> FitOptions {
+        st.options
             .as_ref()
             .map(|(_, o)| o.clone())
-            .unwrap_or_default();
-        fit::fit(&self.sample, &opts, self.skipped)
-            .map(|m| Some(m.to_json()))
-            .map_err(|e| user_error(FIT, e))
+            .unwrap_or_default()
+    }
+
+    fn result(&self, st: &State) -> Result<Option<String>> {
+        let opts = Self::options(st);
+        let out = match self.output {
+            Output::Model => {
+                if st.sample.is_empty() {
+                    return Ok(None);
+                }
+                fit::fit(&st.sample, &opts, st.skipped).map(|m| m.to_json())
+            }
+            Output::Ranking => {
+                if st.sample.is_empty() {
+                    return Ok(None);
+                }
+                Ok(ranking_json(&compare::rank_families(
+                    &st.sample, &opts, st.skipped,
+                )))
+            }
+            Output::KaplanMeier => {
+                if st.sample.is_empty() {
+                    return Ok(None);
+                }
+                let o = st.km_options.unwrap_or_default();
+                km::kaplan_meier(&st.sample.obs(), o.conf, o.band).map(|steps| {
+                    serde_json::Value::Array(
+                        steps
+                            .iter()
+                            .map(|s| {
+                                serde_json::json!({
+                                    "age": s.age,
+                                    "at_risk": s.at_risk,
+                                    "failures": s.failures,
+                                    "reliability": s.reliability,
+                                    "variance": s.variance,
+                                    "lower": s.lower,
+                                    "upper": s.upper,
+                                })
+                            })
+                            .collect(),
+                    )
+                    .to_string()
+                })
+            }
+            Output::Groups => {
+                if st.groups.is_empty() {
+                    return Ok(None);
+                }
+                let groups: Vec<(String, Sample)> = st
+                    .groups
+                    .iter()
+                    .map(|(k, v)| (k.clone(), v.clone()))
+                    .collect();
+                compare::compare_groups(&groups, &opts).map(|c| comparison_json(&c))
+            }
+        };
+        out.map(Some).map_err(|e| user_error(self.name, e))
     }
 }
 
-impl Aggregate<FitState, Option<String>> for LifeFit {
-    fn init(&self, _: &mut Context<'_>) -> Result<FitState> {
-        Ok(FitState::default())
+fn ranking_json(ranked: &[compare::Ranked]) -> String {
+    let rows: Vec<serde_json::Value> = ranked
+        .iter()
+        .enumerate()
+        .map(|(i, r)| match &r.outcome {
+            Ok(x) => serde_json::json!({
+                "rank": i + 1,
+                "dist": r.dist,
+                "k": x.k,
+                "loglik": x.loglik,
+                "aicc": x.aicc,
+                "bic": x.bic,
+                "model": serde_json::from_str::<serde_json::Value>(&x.model.to_json())
+                    .unwrap_or(serde_json::Value::Null),
+            }),
+            Err(reason) => serde_json::json!({
+                "rank": i + 1,
+                "dist": r.dist,
+                "refused": reason,
+            }),
+        })
+        .collect();
+    serde_json::Value::Array(rows).to_string()
+}
+
+fn comparison_json(c: &compare::GroupComparison) -> String {
+    let test = |t: &compare::Test| serde_json::json!({"statistic": t.statistic, "df": t.df, "p_value": t.p_value});
+    let names: Vec<&str> = c.family.params.iter().map(|p| p.name).collect();
+    let params = |p: &[f64]| -> serde_json::Value {
+        names
+            .iter()
+            .zip(p)
+            .map(|(n, v)| (n.to_string(), serde_json::json!(v)))
+            .collect::<serde_json::Map<_, _>>()
+            .into()
+    };
+    serde_json::json!({
+        "dist": c.family.name,
+        "groups": c.groups.iter().map(|(name, m)| {
+            let mut g = params(&m.dist.params());
+            if let (Some(obj), Some(f)) = (g.as_object_mut(), m.fit.as_ref()) {
+                obj.insert("group".into(), serde_json::json!(name));
+                obj.insert("n".into(), serde_json::json!(f.n));
+                obj.insert("loglik".into(), serde_json::json!(f.loglik));
+            }
+            g
+        }).collect::<Vec<_>>(),
+        "pooled_loglik": c.pooled_loglik,
+        "separate_loglik": c.separate_loglik,
+        "common_shape_loglik": c.common_shape_loglik,
+        "common_shape": c.common_shape_params.iter().map(|(name, p)| {
+            let mut g = params(p);
+            if let Some(obj) = g.as_object_mut() {
+                obj.insert("group".into(), serde_json::json!(name));
+            }
+            g
+        }).collect::<Vec<_>>(),
+        "tests": {
+            "same_distribution": test(&c.same_distribution),
+            "common_shape": test(&c.common_shape),
+            "same_scale_given_common_shape": test(&c.same_scale_given_common_shape),
+        },
+    })
+    .to_string()
+}
+
+impl Aggregate<State, Option<String>> for LifeAggregate {
+    fn init(&self, _: &mut Context<'_>) -> Result<State> {
+        Ok(State::default())
     }
 
-    fn step(&self, ctx: &mut Context<'_>, acc: &mut FitState) -> Result<()> {
-        match acc.row(ctx).map_err(|e| user_error(FIT, e))? {
-            None => acc.skipped += 1,
-            Some((age, failed)) => acc
-                .sample
-                .add(age, failed)
-                .map_err(|e| user_error(FIT, e))?,
+    fn step(&self, ctx: &mut Context<'_>, st: &mut State) -> Result<()> {
+        match self.row(ctx, st).map_err(|e| user_error(self.name, e))? {
+            None => st.skipped += 1,
+            Some((group, o)) => match group {
+                Some(g) => st.groups.entry(g).or_default().push(o),
+                None => st.sample.push(o),
+            },
         }
         Ok(())
     }
 
-    fn finalize(&self, _: &mut Context<'_>, acc: Option<FitState>) -> Result<Option<String>> {
-        match acc {
+    fn finalize(&self, _: &mut Context<'_>, st: Option<State>) -> Result<Option<String>> {
+        match st {
             None => Ok(None),
-            Some(acc) => acc.model(),
+            Some(st) => self.result(&st),
         }
     }
 }
 
-impl WindowAggregate<FitState, Option<String>> for LifeFit {
-    fn value(&self, acc: Option<&mut FitState>) -> Result<Option<String>> {
-        match acc {
+impl WindowAggregate<State, Option<String>> for LifeAggregate {
+    fn value(&self, st: Option<&mut State>) -> Result<Option<String>> {
+        match st {
             None => Ok(None),
-            Some(acc) => acc.model(),
+            Some(st) => self.result(st),
         }
     }
 
-    fn inverse(&self, ctx: &mut Context<'_>, acc: &mut FitState) -> Result<()> {
-        match acc.row(ctx).map_err(|e| user_error(FIT, e))? {
-            None => acc.skipped = acc.skipped.saturating_sub(1),
-            Some((age, failed)) => acc
-                .sample
-                .remove(age, failed)
-                .map_err(|e| user_error(FIT, e))?,
+    fn inverse(&self, ctx: &mut Context<'_>, st: &mut State) -> Result<()> {
+        match self.row(ctx, st).map_err(|e| user_error(self.name, e))? {
+            None => st.skipped = st.skipped.saturating_sub(1),
+            Some((group, o)) => {
+                let target = match group {
+                    Some(g) => st.groups.entry(g).or_default(),
+                    None => &mut st.sample,
+                };
+                target.pull(o).map_err(|e| user_error(self.name, e))?;
+            }
         }
         Ok(())
     }
+}
+
+/// Registers a life-data aggregate for each of its argument counts.
+fn aggregate(conn: &Connection, agg: LifeAggregate) -> Result<()> {
+    let base = agg.first()
+        + match agg.form {
+            Form::AgeFailed => 2,
+            Form::Interval => 2,
+        };
+    let most = agg.options_at() + 1;
+    for n in base..=most {
+        conn.create_window_function(
+            agg.name,
+            n as i32,
+            flags(),
+            LifeAggregate {
+                name: agg.name,
+                form: agg.form,
+                output: agg.output,
+            },
+        )?;
+    }
+    Ok(())
+}
+
+/// What a bound reader's second argument names.
+#[derive(Clone, Copy)]
+enum What {
+    /// A parameter name.
+    Param,
+    /// A failed fraction p (percentile life).
+    Quantile,
+    /// An age t (reliability).
+    Reliability,
+}
+
+/// `life_{param,quantile,reliability}_{lower,upper}(model, x [, conf [, sides [, method]]])`.
+fn bound_reader(
+    ctx: &Context<'_>,
+    func: &'static str,
+    what: What,
+    side: bounds::Side,
+) -> Result<Option<f64>> {
+    let err = |e: LifeError| user_error(func, e);
+    if (0..ctx.len()).any(|i| matches!(ctx.get_raw(i), ValueRef::Null)) {
+        return Ok(None);
+    }
+    let conf = if ctx.len() > 2 {
+        number(ctx.get_raw(2), "conf").map_err(err)?.unwrap_or(0.95)
+    } else {
+        0.95
+    };
+    let sides = if ctx.len() > 3 {
+        match ctx.get_raw(3) {
+            ValueRef::Integer(i) => i,
+            ValueRef::Real(r) if r.fract() == 0.0 && r.abs() < 1e6 => r as i64,
+            other => {
+                return Err(err(LifeError::bad(
+                    "sides",
+                    "must be 1 or 2",
+                    describe(other),
+                )))
+            }
+        }
+    } else {
+        2
+    };
+    let level = bounds::Level::new(conf, sides).map_err(err)?;
+    let method_name = if ctx.len() > 4 {
+        match ctx.get_raw(4) {
+            ValueRef::Text(t) => Some(String::from_utf8_lossy(t).into_owned()),
+            other => {
+                return Err(err(LifeError::bad(
+                    "method",
+                    "must be 'fisher', 'lr' or 'chi2'",
+                    describe(other),
+                )))
+            }
+        }
+    } else {
+        None
+    };
+    let method = method_name
+        .as_deref()
+        .map(bounds::BoundMethod::parse)
+        .transpose()
+        .map_err(err)?;
+    let quantity = match what {
+        What::Param => None,
+        What::Quantile => {
+            let p = number(ctx.get_raw(1), "p")
+                .map_err(err)?
+                .unwrap_or(f64::NAN);
+            Some(bounds::Quantity::Quantile(
+                probability("p", p).map_err(err)?,
+            ))
+        }
+        What::Reliability => {
+            let t = number(ctx.get_raw(1), "t")
+                .map_err(err)?
+                .unwrap_or(f64::NAN);
+            Some(bounds::Quantity::Reliability(
+                age_like("t", t).map_err(err)?,
+            ))
+        }
+    };
+    let Some(model) = model_arg(ctx, 0, func)? else {
+        return Ok(None);
+    };
+    let quantity = match quantity {
+        Some(q) => q,
+        None => {
+            let name = match ctx.get_raw(1) {
+                ValueRef::Text(t) => String::from_utf8_lossy(t).into_owned(),
+                other => {
+                    return Err(err(LifeError::bad(
+                        "param",
+                        "must be a parameter name such as 'shape'",
+                        describe(other),
+                    )))
+                }
+            };
+            let fam = model.dist.family();
+            let i = fam.param_index(&name).ok_or_else(|| {
+                err(LifeError::BadArgument {
+                    arg: "param",
+                    expected: "must name a parameter of the model's family",
+                    got: format!(
+                        "'{}' for {} (parameters: {})",
+                        name.chars().take(40).collect::<String>(),
+                        fam.name,
+                        fam.params
+                            .iter()
+                            .map(|p| p.name)
+                            .collect::<Vec<_>>()
+                            .join(", ")
+                    ),
+                })
+            })?;
+            bounds::Quantity::Param(i)
+        }
+    };
+    let method = method.unwrap_or_else(|| {
+        if model.fit.as_ref().is_some_and(|f| f.known.is_some()) {
+            bounds::BoundMethod::ChiSquare
+        } else {
+            bounds::BoundMethod::Fisher
+        }
+    });
+    bounds::bound(&model, quantity, level, method, side)
+        .map(Some)
+        .map_err(err)
 }
 
 /// An instant argument of `life_usage`: None for NULL.
@@ -308,8 +693,17 @@ fn life_usage(ctx: &Context<'_>) -> std::result::Result<Option<f64>, LifeError> 
 
 /// Registers every lifedata function on `conn`.
 pub fn register(conn: &Connection) -> Result<()> {
-    for n_args in [2, 3] {
-        conn.create_window_function(FIT, n_args, flags(), LifeFit)?;
+    for (name, form, output) in [
+        ("life_fit", Form::AgeFailed, Output::Model),
+        ("life_fit_interval", Form::Interval, Output::Model),
+        ("life_fit_all", Form::AgeFailed, Output::Ranking),
+        ("life_fit_all_interval", Form::Interval, Output::Ranking),
+        ("life_compare", Form::AgeFailed, Output::Groups),
+        ("life_compare_interval", Form::Interval, Output::Groups),
+        ("life_km", Form::AgeFailed, Output::KaplanMeier),
+        ("life_km_interval", Form::Interval, Output::KaplanMeier),
+    ] {
+        aggregate(conn, LifeAggregate { name, form, output })?;
     }
     model_scalar(conn, "life_quantile", ["p"], probability, |m, [p]| {
         Ok(Some(m.dist.quantile(p)))
@@ -343,6 +737,28 @@ pub fn register(conn: &Connection) -> Result<()> {
         any_finite,
         |m, [cp, cf]| decide::optimal_replacement_age(m.dist.as_ref(), cp, cf),
     )?;
+    for (name, what, side) in [
+        ("life_param_lower", What::Param, bounds::Side::Lower),
+        ("life_param_upper", What::Param, bounds::Side::Upper),
+        ("life_quantile_lower", What::Quantile, bounds::Side::Lower),
+        ("life_quantile_upper", What::Quantile, bounds::Side::Upper),
+        (
+            "life_reliability_lower",
+            What::Reliability,
+            bounds::Side::Lower,
+        ),
+        (
+            "life_reliability_upper",
+            What::Reliability,
+            bounds::Side::Upper,
+        ),
+    ] {
+        for n_args in 2..=5 {
+            conn.create_scalar_function(name, n_args, flags(), move |ctx| {
+                bound_reader(ctx, name, what, side)
+            })?;
+        }
+    }
     for n_args in [2, 3] {
         conn.create_scalar_function("life_usage", n_args, flags(), |ctx| {
             life_usage(ctx).map_err(|e| user_error("life_usage", e))

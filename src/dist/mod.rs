@@ -7,7 +7,14 @@
 //! those are written once, elsewhere, for every family.
 //! To add a family, write one file here and list it in [`FAMILIES`].
 
+pub mod exponential;
+pub mod gamma;
+pub mod loglogistic;
+pub mod lognormal;
+pub mod normal;
+pub mod numerics;
 pub mod weibull;
+pub mod weibull3;
 
 use crate::error::{LifeError, LifeResult};
 
@@ -180,7 +187,15 @@ impl Family {
 }
 
 /// Every family the extension knows, in the order they are documented.
-pub static FAMILIES: &[&Family] = &[&weibull::FAMILY];
+pub static FAMILIES: &[&Family] = &[
+    &weibull::FAMILY,
+    &weibull3::FAMILY,
+    &exponential::FAMILY,
+    &lognormal::FAMILY,
+    &normal::FAMILY,
+    &loglogistic::FAMILY,
+    &gamma::FAMILY,
+];
 
 /// Looks a family up by name.
 pub fn family(name: &str) -> Option<&'static Family> {

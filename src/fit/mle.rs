@@ -140,14 +140,6 @@ impl Objective<'_> {
     }
 }
 
-impl CostFunction for Objective<'_> {
-    type Param = Vec<f64>;
-    type Output = f64;
-    fn cost(&self, x: &Self::Param) -> Result<f64, argmin::core::Error> {
-        Ok(self.value(x))
-    }
-}
-
 /// Central-difference gradient (fourth order) of `f` at `x`, with steps `h`.
 fn gradient(f: &dyn Fn(&[f64]) -> f64, x: &[f64], h: &[f64]) -> Vec<f64> {
     (0..x.len())
@@ -296,6 +288,44 @@ fn polish(f: &dyn Fn(&[f64]) -> f64, mut x: Vec<f64>) -> Vec<f64> {
     x
 }
 
+/// An argmin cost function around a closure.
+struct ClosureCost<'a>(&'a dyn Fn(&[f64]) -> f64);
+
+impl CostFunction for ClosureCost<'_> {
+    type Param = Vec<f64>;
+    type Output = f64;
+    fn cost(&self, x: &Self::Param) -> Result<f64, argmin::core::Error> {
+        let v = (self.0)(x);
+        Ok(if v.is_nan() { f64::INFINITY } else { v })
+    }
+}
+
+/// Minimises `f` (a negative log-likelihood in unconstrained coordinates)
+/// from `x0`: argmin's Nelder-Mead, then the guarded Newton [`polish`].
+pub fn minimize(f: &dyn Fn(&[f64]) -> f64, x0: Vec<f64>) -> LifeResult<Vec<f64>> {
+    if x0.is_empty() {
+        return Ok(x0);
+    }
+    let mut simplex = vec![x0.clone()];
+    for j in 0..x0.len() {
+        let mut v = x0.clone();
+        v[j] += 0.2 * x0[j].abs().max(0.5);
+        simplex.push(v);
+    }
+    let solver = NelderMead::new(simplex)
+        .with_sd_tolerance(1e-13)
+        .map_err(|e| LifeError::NoConvergence(e.to_string()))?;
+    let result = Executor::new(ClosureCost(f), solver)
+        .configure(|s| s.max_iters(4000))
+        .run()
+        .map_err(|e| LifeError::NoConvergence(format!("the likelihood search failed: {e}")))?;
+    let best =
+        result.state().best_param.clone().ok_or_else(|| {
+            LifeError::NoConvergence("the likelihood search found no maximum".into())
+        })?;
+    Ok(polish(f, best))
+}
+
 /// Maximum likelihood over the parameters not given in `fixed`, from `start`
 /// (natural parameters; None derives one from the data).
 pub fn fit(
@@ -317,51 +347,20 @@ pub fn fit(
     let objective = Objective {
         family,
         obs,
-        base: base.clone(),
-        free: free.clone(),
-    };
-    let x0: Vec<f64> = free.iter().map(|&i| family.to_free(&base)[i]).collect();
-    if !objective.value(&x0).is_finite() {
-        return Err(LifeError::NotEstimable(format!(
-            "the {} likelihood is zero at the start values {:?}; the data may be impossible for this family",
-            family.name, base
-        )));
-    }
-    let x = if free.is_empty() {
-        x0
-    } else {
-        let mut simplex = vec![x0.clone()];
-        for j in 0..free.len() {
-            let mut v = x0.clone();
-            v[j] += 0.2 * x0[j].abs().max(0.5);
-            simplex.push(v);
-        }
-        let solver = NelderMead::new(simplex)
-            .with_sd_tolerance(1e-13)
-            .map_err(|e| LifeError::NoConvergence(e.to_string()))?;
-        let result = Executor::new(objective, solver)
-            .configure(|s| s.max_iters(4000))
-            .run()
-            .map_err(|e| {
-                LifeError::NoConvergence(format!("the {} fit failed: {e}", family.name))
-            })?;
-        let best = result.state().best_param.clone().ok_or_else(|| {
-            LifeError::NoConvergence(format!("the {} fit found no maximum", family.name))
-        })?;
-        let objective = Objective {
-            family,
-            obs,
-            base: base.clone(),
-            free: free.clone(),
-        };
-        polish(&|y: &[f64]| objective.value(y), best)
-    };
-    let objective = Objective {
-        family,
-        obs,
         base,
         free: free.clone(),
     };
+    let x0: Vec<f64> = free
+        .iter()
+        .map(|&i| family.to_free(&objective.base)[i])
+        .collect();
+    if !objective.value(&x0).is_finite() {
+        return Err(LifeError::NotEstimable(format!(
+            "the {} likelihood is zero at the start values {:?}; the data may be impossible for this family",
+            family.name, objective.base
+        )));
+    }
+    let x = minimize(&|y: &[f64]| objective.value(y), x0)?;
     let params = objective.natural(&x);
     let d = (family.build)(&params)?;
     let ll = loglik(d.as_ref(), obs);

@@ -5,7 +5,11 @@
 //! for it. This module reads the fit options and dispatches. Knows nothing
 //! of SQL.
 
+pub mod bounds;
+pub mod compare;
+pub mod km;
 pub mod mle;
+pub mod rank;
 pub mod weibull_mle;
 
 use crate::dist::{self, Family};
@@ -19,6 +23,10 @@ use serde_json::Value;
 pub enum Method {
     /// Maximum likelihood (default).
     Mle,
+    /// Rank regression of the plot's y (probability axis) on x (age axis).
+    RankY,
+    /// Rank regression of x (age axis) on y (probability axis).
+    RankX,
 }
 
 impl Method {
@@ -26,12 +34,16 @@ impl Method {
     pub fn name(&self) -> &'static str {
         match self {
             Method::Mle => "mle",
+            Method::RankY => "rank_y",
+            Method::RankX => "rank_x",
         }
     }
 }
 
 /// Accepted method names, in the order documented.
-pub const METHODS: &[&str] = &["mle"];
+pub const METHODS: &[&str] = &["mle", "rank_y", "rank_x"];
+/// Accepted plotting-position names for rank regression.
+pub const RANKS: &[&str] = &["bernard", "exact"];
 
 /// What the caller asked for in the fit's `options` argument.
 #[derive(Debug, Clone)]
@@ -44,6 +56,8 @@ pub struct FitOptions {
     pub fixed: Vec<Option<f64>>,
     /// Keep the merged sample in the model (for likelihood-ratio bounds).
     pub keep_sample: bool,
+    /// Median-rank plotting positions for rank regression.
+    pub ranks: rank::Positions,
 }
 
 impl Default for FitOptions {
@@ -54,12 +68,13 @@ impl Default for FitOptions {
             method: Method::Mle,
             fixed: vec![None; family.k()],
             keep_sample: false,
+            ranks: rank::Positions::Bernard,
         }
     }
 }
 
 /// Keys accepted in the options object besides the family's parameter names.
-pub const OPTION_KEYS: &[&str] = &["dist", "method", "keep_sample"];
+pub const OPTION_KEYS: &[&str] = &["dist", "method", "ranks", "keep_sample"];
 
 fn quoted_list(items: &[&str]) -> String {
     items
@@ -105,10 +120,24 @@ impl FitOptions {
                 "method" => {
                     opts.method = match v.as_str() {
                         Some("mle") => Method::Mle,
+                        Some("rank_y") => Method::RankY,
+                        Some("rank_x") => Method::RankX,
                         _ => {
                             return Err(LifeError::BadOptions(format!(
                                 "name an unknown method {v}; accepted: {}",
                                 quoted_list(METHODS)
+                            )))
+                        }
+                    }
+                }
+                "ranks" => {
+                    opts.ranks = match v.as_str() {
+                        Some("bernard") => rank::Positions::Bernard,
+                        Some("exact") => rank::Positions::Exact,
+                        _ => {
+                            return Err(LifeError::BadOptions(format!(
+                                "name unknown ranks {v}; accepted: {}",
+                                quoted_list(RANKS)
                             )))
                         }
                     }
@@ -152,6 +181,11 @@ impl FitOptions {
                     }
                 },
             }
+        }
+        if opts.method != Method::Mle && opts.fixed.iter().any(Option::is_some) {
+            return Err(LifeError::BadOptions(
+                "cannot fix parameters with rank regression; use method 'mle'".into(),
+            ));
         }
         if opts.fixed.iter().all(Option::is_some) {
             return Err(LifeError::BadOptions(format!(
@@ -215,7 +249,19 @@ pub fn fit(sample: &Sample, opts: &FitOptions, skipped: u64) -> LifeResult<Model
         .flatten()
         .filter(|_| opts.fixed[1].is_none());
     let mut known = None;
-    let (params, cov, ll) = if r == 0 {
+    let mut correlation = None;
+    let (params, cov, ll) = if opts.method != Method::Mle {
+        let regress = if opts.method == Method::RankY {
+            rank::Regress::OnY
+        } else {
+            rank::Regress::OnX
+        };
+        let rf = rank::rank_regression(fam, &obs, opts.ranks, regress)?;
+        correlation = Some(rf.correlation);
+        let d = (fam.build)(&rf.params)?;
+        let ll = mle::loglik(d.as_ref(), &obs);
+        (rf.params, Vec::new(), ll)
+    } else if r == 0 {
         // No failures: only a known Weibull shape gives an answer, the
         // scale whose 63.2% lower confidence bound the data support.
         let (Some(shape), Some(t)) = (
@@ -259,6 +305,28 @@ pub fn fit(sample: &Sample, opts: &FitOptions, skipped: u64) -> LifeResult<Model
     } else if fam.param_index("location") == Some(2) && opts.fixed.iter().all(Option::is_none) {
         let est = mle::fit_with_location(fam, &obs)?;
         (est.params, est.cov, est.loglik)
+    } else if let (Some(shape), Some(t)) = (
+        known_weibull_shape,
+        known_weibull_shape.and_then(|b| exposure(&obs, b)),
+    ) {
+        // Known Weibull shape, exact and right-censored lives: the scale in
+        // closed form, eta = (sum (t^beta - entry^beta) / r)^(1/beta), with
+        // variance eta^2 / (beta^2 r) from the information.
+        let rf = r as f64;
+        let scale = (t / rf).powf(1.0 / shape);
+        known = Some(KnownShape {
+            exposure: t,
+            failures: r,
+        });
+        let d = (fam.build)(&[shape, scale])?;
+        (
+            vec![shape, scale],
+            vec![
+                vec![0.0, 0.0],
+                vec![0.0, scale * scale / (shape * shape * rf)],
+            ],
+            mle::loglik(d.as_ref(), &obs),
+        )
     } else {
         let est = mle::fit(fam, &obs, None, &opts.fixed)?;
         if let Some(shape) = known_weibull_shape {
@@ -290,6 +358,14 @@ pub fn fit(sample: &Sample, opts: &FitOptions, skipped: u64) -> LifeResult<Model
                 .map(|(p, _)| p.name.to_string())
                 .collect(),
             known,
+            correlation,
+            ranks: (opts.method != Method::Mle).then(|| {
+                match opts.ranks {
+                    rank::Positions::Bernard => "bernard",
+                    rank::Positions::Exact => "exact",
+                }
+                .to_string()
+            }),
             sample: opts.keep_sample.then_some(obs),
         }),
     })
