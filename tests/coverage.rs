@@ -7,6 +7,7 @@
 //! - random censoring: each unit is suspended at an independent time drawn
 //!   from the same distribution, as in a fleet whose units entered service
 //!   at different times.
+//!
 //! The likelihood-ratio interval must contain the true B10 in 93.5-96.5% of
 //! the samples (standard error of a 95% coverage over 2 000 samples: 0.49%).
 //! Fisher-matrix coverage is printed beside it; it is known to fall short at

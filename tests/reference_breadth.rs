@@ -4,40 +4,13 @@
 //! `tests/reference/make_breadth_refs.py` into `fixtures/reference/breadth/`.
 //! Run with `--nocapture` to print the measured agreement.
 
+mod common;
+use common::{f, load, rel, sample_of};
 use lifedata::dist;
 use lifedata::fit::bounds::{bound, BoundMethod, Level, Quantity, Side};
 use lifedata::fit::compare::compare_groups;
 use lifedata::fit::{fit, FitOptions};
 use lifedata::sample::Sample;
-use serde_json::Value;
-
-fn load(path: &str) -> Value {
-    let text = std::fs::read_to_string(format!("{}/{path}", env!("CARGO_MANIFEST_DIR")))
-        .unwrap_or_else(|e| panic!("{path}: {e}"));
-    serde_json::from_str(&text).unwrap()
-}
-
-fn f(v: &Value) -> f64 {
-    v.as_f64().unwrap()
-}
-
-fn rel(a: f64, b: f64) -> f64 {
-    if a == b {
-        0.0
-    } else {
-        (a - b).abs() / b.abs().max(f64::MIN_POSITIVE)
-    }
-}
-
-/// Rows [earliest, latest|null, entry, count] into a sample.
-pub fn sample_of(rows: &Value) -> Sample {
-    let mut s = Sample::new();
-    for r in rows.as_array().unwrap() {
-        let latest = if r[1].is_null() { None } else { Some(f(&r[1])) };
-        s.push(Sample::observation(f(&r[0]), latest, f(&r[2]), r[3].as_u64().unwrap()).unwrap());
-    }
-    s
-}
 
 fn options(text: &str) -> FitOptions {
     FitOptions::parse(text).unwrap()

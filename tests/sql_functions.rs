@@ -416,7 +416,15 @@ fn counts_give_the_fit_of_expanded_rows() {
          INSERT INTO expanded_c SELECT earliest, latest, entry FROM censored, k WHERE k.i <= censored.n;",
     )
     .unwrap();
-    let families = ["weibull", "weibull3", "exponential", "lognormal", "normal", "loglogistic", "gamma"];
+    let families = [
+        "weibull",
+        "weibull3",
+        "exponential",
+        "lognormal",
+        "normal",
+        "loglogistic",
+        "gamma",
+    ];
     let mut compared = 0;
     for fam in families {
         for method in ["mle", "rank_y", "rank_x"] {
@@ -447,14 +455,23 @@ fn counts_give_the_fit_of_expanded_rows() {
         }
     }
     assert!(compared >= 20, "{compared}");
-    let km_a: String = one(&c, "SELECT life_km_interval(earliest, latest, entry, n) FROM grouped");
-    let km_b: String = one(&c, "SELECT life_km_interval(earliest, latest, entry) FROM expanded");
+    let km_a: String = one(
+        &c,
+        "SELECT life_km_interval(earliest, latest, entry, n) FROM grouped",
+    );
+    let km_b: String = one(
+        &c,
+        "SELECT life_km_interval(earliest, latest, entry) FROM expanded",
+    );
     assert_eq!(km_a, km_b);
     // The plain (age, failed) form gives the same model as the general form.
     let plain: String = one(
         &c,
         "SELECT life_fit(earliest, latest IS NOT NULL) FROM expanded",
     );
-    let general: String = one(&c, "SELECT life_fit_interval(earliest, latest) FROM expanded");
+    let general: String = one(
+        &c,
+        "SELECT life_fit_interval(earliest, latest) FROM expanded",
+    );
     assert_eq!(plain, general);
 }

@@ -30,13 +30,22 @@ pub static FAMILY: Family = Family {
     pinned: 0,
     // t_p = -theta ln(1 - p)  =>  theta = t / -ln(1 - p)
     pin_quantile: |_, prob, t| {
+        if !(prob > 0.0 && prob < 1.0) {
+            return None; // no age pins F = 0 or F = 1
+        }
         let theta = t / -(-prob).ln_1p();
         (theta.is_finite() && theta > 0.0).then(|| vec![theta])
     },
     // -ln(1 - F) = t / theta: a line through the origin with slope 1/theta.
     linear: Some(Linearisation {
         x: |t| t,
-        y: |f| -(-f).ln_1p(),
+        y: |f| {
+            if (0.0..=1.0).contains(&f) {
+                -(-f).ln_1p()
+            } else {
+                f64::NAN
+            }
+        },
         y_inv: |y| -(-y).exp_m1(),
         through_origin: true,
         params: |_, b| {
@@ -88,6 +97,9 @@ impl LifeDistribution for Exponential {
 
     /// t_p = -theta ln(1 - p)
     fn quantile(&self, p: f64) -> f64 {
+        if !(0.0..=1.0).contains(&p) {
+            return f64::NAN;
+        }
         -self.scale * (-p).ln_1p()
     }
 

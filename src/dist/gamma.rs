@@ -39,6 +39,9 @@ pub static FAMILY: Family = Family {
     pinned: 1,
     // t_p = theta x_p(k), x_p the standard gamma quantile  =>  theta = t / x_p(k)
     pin_quantile: |p, prob, t| {
+        if !(prob > 0.0 && prob < 1.0) {
+            return None; // no age pins F = 0 or F = 1
+        }
         let theta = t / gamma_quantile(p[0], prob);
         (theta.is_finite() && theta > 0.0).then(|| vec![p[0], theta])
     },
@@ -100,6 +103,9 @@ impl LifeDistribution for Gamma {
     fn hazard(&self, t: f64) -> f64 {
         if t <= 0.0 {
             return self.pdf_at_zero();
+        }
+        if t == f64::INFINITY {
+            return 1.0 / self.scale; // the hazard levels off at 1/theta
         }
         inc_gamma(self.shape, t / self.scale).ln_prefix_over_q.exp() / t
     }

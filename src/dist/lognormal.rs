@@ -4,9 +4,8 @@
 //! deviation of ln t (the median life is exp(mu)). Common for fatigue and
 //! wear-out with a long right tail.
 
-use super::numerics::{self, ln_norm_cdf, ln_norm_sf, norm_cdf};
-use super::ParamKind;
-use super::{finite, norm_ppf, positive, Family, LifeDistribution, Linearisation, ParamInfo};
+use super::numerics::{self, ln_norm_cdf, ln_norm_sf, norm_cdf, norm_hazard, norm_quantile};
+use super::{finite, positive, Family, LifeDistribution, Linearisation, ParamInfo, ParamKind};
 use crate::error::LifeResult;
 use std::f64::consts::PI;
 
@@ -44,13 +43,16 @@ pub static FAMILY: Family = Family {
     pinned: 0,
     // t_p = exp(mu + sigma z_p)  =>  mu = ln t - sigma z_p
     pin_quantile: |p, prob, t| {
-        let mu = t.ln() - p[1] * norm_ppf(prob);
+        if !(prob > 0.0 && prob < 1.0) {
+            return None; // no age pins F = 0 or F = 1
+        }
+        let mu = t.ln() - p[1] * norm_quantile(prob);
         mu.is_finite().then(|| vec![mu, p[1]])
     },
     // Phi^-1(F) = (ln t - mu)/sigma: slope 1/sigma, intercept -mu/sigma.
     linear: Some(Linearisation {
         x: f64::ln,
-        y: norm_ppf,
+        y: norm_quantile,
         y_inv: norm_cdf,
         through_origin: false,
         params: |a, b| {
@@ -107,18 +109,19 @@ impl LifeDistribution for Lognormal {
         -(t * self.sigma).ln() - 0.5 * (2.0 * PI).ln() - 0.5 * z * z
     }
 
-    /// h(t) = f(t) / R(t), as exp(ln f + H) so that it survives where R
-    /// underflows.
+    /// h(t) = f(t) / R(t) = phi(z) / (t sigma (1 - Phi(z))), the ratio formed
+    /// without the tails themselves (see [`numerics::norm_hazard`]).
     fn hazard(&self, t: f64) -> f64 {
-        if t <= 0.0 {
-            return 0.0;
+        if t <= 0.0 || t == f64::INFINITY {
+            return 0.0; // h(0) = 0 and h(t) -> 0 as t grows
         }
-        (self.ln_pdf(t) + self.cum_hazard(t)).exp()
+        norm_hazard(self.z(t)) / (t * self.sigma)
     }
 
     /// t_p = exp(mu + sigma z_p), z_p = Phi^-1(p)
     fn quantile(&self, p: f64) -> f64 {
-        (self.mu + self.sigma * norm_ppf(p)).exp()
+        // norm_quantile is NaN outside [0, 1]
+        (self.mu + self.sigma * norm_quantile(p)).exp()
     }
 
     /// mean = exp(mu + sigma^2/2)

@@ -236,22 +236,19 @@ pub(crate) fn finite(name: &'static str, value: f64) -> LifeResult<f64> {
     }
 }
 
-/// Standard normal quantile, for families and bounds.
+/// Standard normal quantile, for families and bounds; NaN outside [0, 1].
 pub fn norm_ppf(p: f64) -> f64 {
     use statrs::distribution::{ContinuousCDF, Normal};
-    Normal::standard().inverse_cdf(p)
+    if (0.0..=1.0).contains(&p) {
+        Normal::standard().inverse_cdf(p)
+    } else {
+        f64::NAN
+    }
 }
 
 /// Logarithm of the standard normal survival function, accurate far into
-/// the upper tail (where 1 - Phi underflows to 0 long before its log does).
+/// both tails (statrs' erfc is good only to ~1e-10 relative; see
+/// [`numerics::ln_norm_sf`]).
 pub fn ln_norm_sf(z: f64) -> f64 {
-    use statrs::function::erf::erfc;
-    if z < 30.0 {
-        (0.5 * erfc(z / std::f64::consts::SQRT_2)).ln()
-    } else {
-        // Mills-ratio asymptotic series: ln(phi(z)/z (1 - 1/z^2 + 3/z^4 - 15/z^6)).
-        let z2 = z * z;
-        -0.5 * z2 - z.ln() - 0.5 * (2.0 * std::f64::consts::PI).ln()
-            + (1.0 - 1.0 / z2 + 3.0 / (z2 * z2) - 15.0 / (z2 * z2 * z2)).ln()
-    }
+    numerics::ln_norm_sf(z)
 }

@@ -11,9 +11,10 @@
 //! integral of this R from 0, so for large t it tends to
 //! mu Phi(mu/sigma) + sigma phi(mu/sigma), which equals mu only in that case.
 
-use super::numerics::{self, ln_norm_sf, norm_cdf, norm_pdf, norm_sf, CANCELLATION};
-use super::ParamKind;
-use super::{finite, norm_ppf, positive, Family, LifeDistribution, Linearisation, ParamInfo};
+use super::numerics::{
+    self, ln_norm_sf, norm_cdf, norm_hazard, norm_pdf, norm_quantile, norm_sf, CANCELLATION,
+};
+use super::{finite, positive, Family, LifeDistribution, Linearisation, ParamInfo, ParamKind};
 use crate::error::LifeResult;
 use std::f64::consts::PI;
 
@@ -47,13 +48,16 @@ pub static FAMILY: Family = Family {
     pinned: 0,
     // t_p = mu + sigma z_p  =>  mu = t - sigma z_p
     pin_quantile: |p, prob, t| {
-        let mu = t - p[1] * norm_ppf(prob);
+        if !(prob > 0.0 && prob < 1.0) {
+            return None; // no age pins F = 0 or F = 1
+        }
+        let mu = t - p[1] * norm_quantile(prob);
         mu.is_finite().then(|| vec![mu, p[1]])
     },
     // Phi^-1(F) = (t - mu)/sigma: slope 1/sigma, intercept -mu/sigma.
     linear: Some(Linearisation {
         x: |t| t,
-        y: norm_ppf,
+        y: norm_quantile,
         y_inv: norm_cdf,
         through_origin: false,
         params: |a, b| {
@@ -117,15 +121,15 @@ impl LifeDistribution for Normal {
         -self.sigma.ln() - 0.5 * (2.0 * PI).ln() - 0.5 * z * z
     }
 
-    /// h(t) = f(t) / R(t), as exp(ln f + H) so that it survives where R
-    /// underflows.
+    /// h(t) = f(t) / R(t) = phi(z) / (sigma (1 - Phi(z))), the ratio formed
+    /// without the tails themselves (see [`numerics::norm_hazard`]).
     fn hazard(&self, t: f64) -> f64 {
-        (self.ln_pdf(t) + self.cum_hazard(t)).exp()
+        norm_hazard(self.z(t)) / self.sigma
     }
 
     /// t_p = mu + sigma z_p, z_p = Phi^-1(p) (negative for p < Phi(-mu/sigma)).
     fn quantile(&self, p: f64) -> f64 {
-        self.mu + self.sigma * norm_ppf(p)
+        self.mu + self.sigma * norm_quantile(p)
     }
 
     /// mean = mu
@@ -144,10 +148,11 @@ impl LifeDistribution for Normal {
             return 0.0;
         }
         let (s, z0) = (self.sigma, -self.mu / self.sigma);
-        if t == f64::INFINITY {
+        let z1 = self.z(t);
+        if z1 > 40.0 {
+            // L(z1) < phi(40) / 40^2 underflows: all of the integral is in.
             return s * upper_loss(z0);
         }
-        let z1 = self.z(t);
         // Rounding scale of each form: the sizes of the terms it adds.
         let size_upper = s * (norm_pdf(z0) + (z0 * norm_sf(z0)).abs())
             + s * (norm_pdf(z1) + (z1 * norm_sf(z1)).abs());

@@ -42,6 +42,9 @@ pub static FAMILY: Family = Family {
     pinned: 1,
     // t_p = gamma + eta (-ln(1-p))^(1/beta)  =>  eta = (t - gamma) / (-ln(1-p))^(1/beta)
     pin_quantile: |p, prob, t| {
+        if !(prob > 0.0 && prob < 1.0) {
+            return None; // no age pins F = 0 or F = 1
+        }
         if t <= p[2] {
             return None;
         }
@@ -145,9 +148,10 @@ impl LifeDistribution for Weibull3 {
         }
     }
 
-    /// ln f(t) = Weibull ln f(t - gamma); -inf before gamma.
+    /// ln f(t) = Weibull ln f(t - gamma); -inf before gamma, and -inf where
+    /// (t - gamma)/eta overflows (the Weibull form would give inf - inf).
     fn ln_pdf(&self, t: f64) -> f64 {
-        if t < self.location {
+        if t < self.location || ((t - self.location) / self.beyond.scale).is_infinite() {
             f64::NEG_INFINITY
         } else {
             self.beyond.ln_pdf(t - self.location)
@@ -165,6 +169,9 @@ impl LifeDistribution for Weibull3 {
 
     /// t_p = gamma + eta (-ln(1 - p))^(1/beta); t_0 = gamma.
     fn quantile(&self, p: f64) -> f64 {
+        if !(0.0..=1.0).contains(&p) {
+            return f64::NAN;
+        }
         self.location + self.beyond.quantile(p)
     }
 

@@ -26,7 +26,10 @@ pub fn loglik(d: &dyn LifeDistribution, obs: &[Obs]) -> f64 {
         let l = match o.kind() {
             Kind::Failure => d.ln_pdf(o.earliest),
             Kind::Suspension => -d.cum_hazard(o.earliest),
-            Kind::LeftCensored | Kind::Interval => {
+            // ln F(b): failed at some age before b. (For a family with mass
+            // below age 0, such as the normal, F(b) includes it.)
+            Kind::LeftCensored => (-(-d.cum_hazard(o.latest)).exp_m1()).ln(),
+            Kind::Interval => {
                 // ln(R(a) - R(b)) = -H(a) + ln(1 - exp(-(H(b) - H(a))))
                 let dh = d.cum_hazard_increment(o.earliest, o.latest - o.earliest);
                 -d.cum_hazard(o.earliest) + (-(-dh).exp_m1()).ln()
@@ -490,13 +493,18 @@ pub fn fit_with_location(family: &'static Family, obs: &[Obs]) -> LifeResult<Est
         ))
     })?;
     if location <= 0.0 {
+        // On the boundary: no failure-free period; the location is held at 0
+        // and its row of the covariance stays zero.
         return Ok(at);
     }
     // Polish all three together from the profile's maximum.
-    match fit(family, obs, Some(at.params.clone()), &[None, None, None]) {
-        Ok(e) if e.loglik >= at.loglik && e.params[2] < upper && e.params[2] >= 0.0 => Ok(e),
-        _ => Ok(at),
-    }
+    let best = match fit(family, obs, Some(at.params.clone()), &[None, None, None]) {
+        Ok(e) if e.loglik >= at.loglik && e.params[2] < upper && e.params[2] >= 0.0 => e,
+        _ => at,
+    };
+    // The covariance of all three (the profile's fit held the location fixed).
+    let cov = covariance(family, obs, &best.params, &[0, 1, 2])?;
+    Ok(Estimate { cov, ..best })
 }
 
 impl CostFunction for &LocationProfile<'_> {
