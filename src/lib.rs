@@ -15,6 +15,7 @@ pub mod fit;
 pub mod model;
 pub mod sample;
 pub mod sql;
+pub mod sql_tables;
 pub mod usage;
 
 pub use error::{LifeError, LifeResult};

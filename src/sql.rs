@@ -759,6 +759,7 @@ pub fn register(conn: &Connection) -> Result<()> {
             })?;
         }
     }
+    crate::sql_tables::register_tables(conn)?;
     for n_args in [2, 3] {
         conn.create_scalar_function("life_usage", n_args, flags(), |ctx| {
             life_usage(ctx).map_err(|e| user_error("life_usage", e))

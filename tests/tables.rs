@@ -1,0 +1,132 @@
+//! Table-valued functions on a bundled SQLite: curves and probability-plot
+//! rows, checked against the readers, scipy's exact median ranks and the
+//! families' published probability-plot linearisations.
+
+use rusqlite::Connection;
+
+mod common;
+
+fn conn() -> Connection {
+    let c = Connection::open_in_memory().unwrap();
+    lifedata::register(&c).unwrap();
+    c
+}
+
+/// Curve rows agree with the scalar readers at every age, log and linear.
+#[test]
+fn curve_rows_match_the_readers() {
+    let c = conn();
+    let m = r#"{"dist":"lognormal","mu":7,"sigma":0.6}"#;
+    for spacing in ["linear", "log"] {
+        let mut stmt = c
+            .prepare(
+                "SELECT age, unreliability, reliability, density, hazard,
+                        life_cdf(?1, age), life_reliability(?1, age), life_pdf(?1, age), life_hazard(?1, age)
+                   FROM life_curve(?1, 10, 5000, 30, ?2)",
+            )
+            .unwrap();
+        let rows: Vec<[f64; 9]> = stmt
+            .query_map(rusqlite::params![m, spacing], |r| {
+                let mut v = [0.0; 9];
+                for (i, slot) in v.iter_mut().enumerate() {
+                    *slot = r.get(i)?;
+                }
+                Ok(v)
+            })
+            .unwrap()
+            .map(Result::unwrap)
+            .collect();
+        assert_eq!(rows.len(), 30);
+        assert_eq!(rows[0][0], 10.0);
+        assert!((rows[29][0] - 5000.0).abs() < 1e-9);
+        for r in &rows {
+            for k in 1..5 {
+                assert_eq!(r[k], r[k + 4], "{spacing} at {}", r[0]);
+            }
+        }
+        if spacing == "log" {
+            let ratio = rows[1][0] / rows[0][0];
+            assert!((rows[2][0] / rows[1][0] - ratio).abs() < 1e-12);
+        }
+    }
+    // Bounds appear when the model has a covariance, and bracket the estimate.
+    let n: i64 = c
+        .query_row(
+            "WITH m(m) AS (SELECT life_fit(column1, 1)
+                             FROM (VALUES (12.0),(30.5),(41.0),(60.2),(75.9),(99.0)))
+             SELECT count(*) FROM life_curve((SELECT m FROM m), 1, 120, 12)
+              WHERE reliability_lower <= reliability AND reliability <= reliability_upper",
+            [],
+            |r| r.get(0),
+        )
+        .unwrap();
+    assert_eq!(n, 12);
+}
+
+/// Source: exact median ranks from scipy.special.betaincinv (n = 20, in
+/// fixtures/reference/breadth/median_ranks.json); Weibull plot axes
+/// x = ln t, y = ln(-ln(1 - F)) (the Weibull probability paper's
+/// linearisation, e.g. Nelson, Applied Life Data Analysis, 1982, from
+/// memory). Every failure row's position, x and y, and the fitted line,
+/// computed independently here.
+#[test]
+fn plot_points_sit_on_the_published_axes() {
+    let refs = common::load("fixtures/reference/breadth/median_ranks.json");
+    let exact: Vec<f64> = refs["exact"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter(|e| e["n"] == 20)
+        .map(|e| common::f(&e["rank"]))
+        .collect();
+    assert_eq!(exact.len(), 20);
+    let c = conn();
+    c.execute_batch(
+        "CREATE TABLE life(age REAL);
+         WITH RECURSIVE k(i) AS (SELECT 1 UNION ALL SELECT i + 1 FROM k WHERE i < 20)
+         INSERT INTO life SELECT 100.0 * i + i * i FROM k;
+         CREATE TABLE m AS SELECT life_fit(age, 1, '{\"keep_sample\":true}') AS m FROM life;",
+    )
+    .unwrap();
+    let (shape, scale): (f64, f64) = c
+        .query_row(
+            "SELECT json_extract(m, '$.shape'), json_extract(m, '$.scale') FROM m",
+            [],
+            |r| Ok((r.get(0)?, r.get(1)?)),
+        )
+        .unwrap();
+    let mut stmt = c
+        .prepare(
+            "SELECT age, position, x, y, fit_y FROM life_plot_points((SELECT m FROM m), 0.95, 'exact')
+              WHERE kind = 'failure' ORDER BY age",
+        )
+        .unwrap();
+    let rows: Vec<(f64, f64, f64, f64, f64)> = stmt
+        .query_map([], |r| {
+            Ok((r.get(0)?, r.get(1)?, r.get(2)?, r.get(3)?, r.get(4)?))
+        })
+        .unwrap()
+        .map(Result::unwrap)
+        .collect();
+    assert_eq!(rows.len(), 20);
+    for (i, (age, pos, x, y, fit_y)) in rows.iter().enumerate() {
+        assert!(
+            (pos - exact[i]).abs() < 1e-13,
+            "rank {i}: {pos} vs {}",
+            exact[i]
+        );
+        assert!((x - age.ln()).abs() < 1e-13);
+        assert!((y - (-(1.0 - pos).ln()).ln()).abs() < 1e-12);
+        // The fitted line: y = shape * (ln t - ln scale).
+        assert!((fit_y - shape * (age.ln() - scale.ln())).abs() < 1e-9);
+    }
+    // Suspensions are listed for the event chart; line rows span the data.
+    let (lines, lo, hi): (i64, f64, f64) = c
+        .query_row(
+            "SELECT count(*), min(age), max(age) FROM life_plot_points((SELECT m FROM m)) WHERE kind = 'line'",
+            [],
+            |r| Ok((r.get(0)?, r.get(1)?, r.get(2)?)),
+        )
+        .unwrap();
+    assert!(lines > 10 && lo < 101.0 && hi > 2400.0);
+}
