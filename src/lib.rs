@@ -13,6 +13,7 @@ pub mod dist;
 pub mod error;
 pub mod fit;
 pub mod model;
+pub mod plot;
 pub mod sample;
 pub mod sql;
 pub mod sql_tables;

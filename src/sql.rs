@@ -645,6 +645,61 @@ fn bound_reader(
         .map_err(err)
 }
 
+/// An optional text argument (None when absent; NULL handled by the caller).
+fn text_arg(
+    ctx: &Context<'_>,
+    i: usize,
+    arg: &'static str,
+    default: &str,
+) -> std::result::Result<String, LifeError> {
+    if ctx.len() <= i {
+        return Ok(default.to_string());
+    }
+    match ctx.get_raw(i) {
+        ValueRef::Text(t) => Ok(String::from_utf8_lossy(t).into_owned()),
+        other => Err(LifeError::bad(arg, "must be text", describe(other))),
+    }
+}
+
+fn any_null(ctx: &Context<'_>) -> bool {
+    (0..ctx.len()).any(|i| matches!(ctx.get_raw(i), ValueRef::Null))
+}
+
+/// `life_plot_svg(model [, title [, age_label [, conf]]])`.
+fn plot_svg(ctx: &Context<'_>) -> std::result::Result<Option<String>, LifeError> {
+    if any_null(ctx) {
+        return Ok(None);
+    }
+    let title = text_arg(ctx, 1, "title", "Probability plot")?;
+    let age_label = text_arg(ctx, 2, "age_label", "age")?;
+    let conf = if ctx.len() > 3 {
+        number(ctx.get_raw(3), "conf")?.unwrap_or(0.95)
+    } else {
+        0.95
+    };
+    let m = crate::sql_tables::model_of(Some(ctx.get_raw(0)))?;
+    crate::plot::model_probability_svg(&m, &title, &age_label, conf).map(Some)
+}
+
+/// `life_cost_svg(model, cost_planned, cost_failure [, title [, age_label]])`.
+fn cost_svg(ctx: &Context<'_>) -> std::result::Result<Option<String>, LifeError> {
+    if any_null(ctx) {
+        return Ok(None);
+    }
+    let cp = any_finite(
+        "cost_planned",
+        number(ctx.get_raw(1), "cost_planned")?.unwrap_or(f64::NAN),
+    )?;
+    let cf = any_finite(
+        "cost_failure",
+        number(ctx.get_raw(2), "cost_failure")?.unwrap_or(f64::NAN),
+    )?;
+    let title = text_arg(ctx, 3, "title", "When to replace")?;
+    let age_label = text_arg(ctx, 4, "age_label", "replacement age")?;
+    let m = crate::sql_tables::model_of(Some(ctx.get_raw(0)))?;
+    crate::plot::model_cost_svg(&m, cp, cf, &title, &age_label).map(Some)
+}
+
 /// An instant argument of `life_usage`: None for NULL.
 fn instant_arg(
     v: ValueRef<'_>,
@@ -760,6 +815,16 @@ pub fn register(conn: &Connection) -> Result<()> {
         }
     }
     crate::sql_tables::register_tables(conn)?;
+    for n_args in 1..=4 {
+        conn.create_scalar_function("life_plot_svg", n_args, flags(), |ctx| {
+            plot_svg(ctx).map_err(|e| user_error("life_plot_svg", e))
+        })?;
+    }
+    for n_args in 3..=5 {
+        conn.create_scalar_function("life_cost_svg", n_args, flags(), |ctx| {
+            cost_svg(ctx).map_err(|e| user_error("life_cost_svg", e))
+        })?;
+    }
     for n_args in [2, 3] {
         conn.create_scalar_function("life_usage", n_args, flags(), |ctx| {
             life_usage(ctx).map_err(|e| user_error("life_usage", e))

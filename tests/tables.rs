@@ -130,3 +130,56 @@ fn plot_points_sit_on_the_published_axes() {
         .unwrap();
     assert!(lines > 10 && lo < 101.0 && hi > 2400.0);
 }
+
+/// The picture functions return self-contained SVG that parses as XML,
+/// with one marker per failure and the optimum marked on the cost curve.
+#[test]
+fn svg_functions_return_parseable_pictures() {
+    let c = conn();
+    c.execute_batch(
+        "CREATE TABLE life(age REAL, failed INT);
+         INSERT INTO life VALUES (17.88,1),(28.92,1),(33.00,1),(41.52,1),(42.12,1),(45.60,1),
+           (48.48,1),(51.84,1),(51.96,1),(54.12,1),(55.56,1),(67.80,1),(68.64,1),(68.64,1),
+           (68.88,1),(84.12,1),(93.12,1),(98.64,1),(105.12,1),(105.84,1),(127.92,1),(128.04,1),
+           (173.40,1),(60,0),(80,0);",
+    )
+    .unwrap();
+    let svg: String = c
+        .query_row(
+            "SELECT life_plot_svg(life_fit(age, failed, '{\"keep_sample\":true}'),
+                                  'Bearings <&> \"test\"', 'million revolutions') FROM life",
+            [],
+            |r| r.get(0),
+        )
+        .unwrap();
+    let doc = roxmltree::Document::parse(&svg).unwrap();
+    let root = doc.root_element();
+    assert_eq!(root.tag_name().name(), "svg");
+    let class_count = |class: &str| {
+        doc.descendants()
+            .filter(|n| {
+                n.attribute("class")
+                    .is_some_and(|c| c.split(' ').any(|x| x == class))
+            })
+            .count()
+    };
+    assert_eq!(class_count("failure"), 23);
+    assert!(class_count("suspension") >= 2);
+    assert!(svg.contains("Bearings &lt;&amp;&gt;"));
+    let cost: String = c
+        .query_row(
+            "SELECT life_cost_svg(life_fit(age, failed), 1, 10) FROM life",
+            [],
+            |r| r.get(0),
+        )
+        .unwrap();
+    let doc = roxmltree::Document::parse(&cost).unwrap();
+    assert!(doc
+        .descendants()
+        .any(|n| n.attribute("class").is_some_and(|c| c.contains("optimum"))));
+    // NULL in, NULL out.
+    let none: Option<String> = c
+        .query_row("SELECT life_plot_svg(NULL)", [], |r| r.get(0))
+        .unwrap();
+    assert!(none.is_none());
+}
