@@ -815,6 +815,14 @@ pub fn register(conn: &Connection) -> Result<()> {
         }
     }
     crate::sql_tables::register_tables(conn)?;
+    for n_args in [3, 4] {
+        conn.create_window_function(
+            "life_forecast",
+            n_args,
+            flags(),
+            crate::sql_forecast::LifeForecast,
+        )?;
+    }
     for n_args in 1..=4 {
         conn.create_scalar_function("life_plot_svg", n_args, flags(), |ctx| {
             plot_svg(ctx).map_err(|e| user_error("life_plot_svg", e))

@@ -183,3 +183,57 @@ fn svg_functions_return_parseable_pictures() {
         .unwrap();
     assert!(none.is_none());
 }
+
+/// The forecast aggregate over units in service, per class by a join: its
+/// expected count is the sum of the units' conditional failure
+/// probabilities, its variance the sum of p(1-p) (Poisson-binomial; the
+/// distribution itself is checked against numpy in reference_forecast.rs).
+#[test]
+fn forecast_per_class_by_join() {
+    let c = conn();
+    c.execute_batch(
+        "CREATE TABLE model(class TEXT, m TEXT);
+         INSERT INTO model VALUES ('ALT', '{\"dist\":\"weibull\",\"shape\":3,\"scale\":450000}'),
+                                  ('DOOR', '{\"dist\":\"lognormal\",\"mu\":13,\"sigma\":0.9}');
+         CREATE TABLE running(class TEXT, age_km REAL, km_per_day REAL);
+         WITH RECURSIVE k(i) AS (SELECT 1 UNION ALL SELECT i + 1 FROM k WHERE i < 400)
+         INSERT INTO running SELECT CASE WHEN i % 3 THEN 'ALT' ELSE 'DOOR' END,
+                                    (i * 7919) % 600000, 150 + i % 200 FROM k;",
+    )
+    .unwrap();
+    let mut stmt = c
+        .prepare(
+            "SELECT r.class, life_forecast(m.m, r.age_km, 30 * r.km_per_day),
+                    sum(life_cond_fail(m.m, r.age_km, 30 * r.km_per_day)),
+                    sum(life_cond_fail(m.m, r.age_km, 30 * r.km_per_day)
+                        * (1 - life_cond_fail(m.m, r.age_km, 30 * r.km_per_day))),
+                    count(*)
+               FROM running r JOIN model m USING (class) GROUP BY r.class ORDER BY r.class",
+        )
+        .unwrap();
+    let rows: Vec<(String, String, f64, f64, i64)> = stmt
+        .query_map([], |r| {
+            Ok((r.get(0)?, r.get(1)?, r.get(2)?, r.get(3)?, r.get(4)?))
+        })
+        .unwrap()
+        .map(Result::unwrap)
+        .collect();
+    assert_eq!(rows.len(), 2);
+    for (class, f, mean, var, n) in rows {
+        let v: serde_json::Value = serde_json::from_str(&f).unwrap();
+        assert_eq!(v["units"], n, "{class}");
+        assert!(
+            (v["expected"].as_f64().unwrap() - mean).abs() < 1e-9 * mean.max(1.0),
+            "{class}"
+        );
+        assert!(
+            (v["sd"].as_f64().unwrap() - var.sqrt()).abs() < 1e-9,
+            "{class}"
+        );
+        let q95 = v["quantiles"]["0.95"].as_u64().unwrap() as f64;
+        assert!(
+            q95 >= mean && q95 <= mean + 4.0 * var.sqrt() + 1.0,
+            "{class}: {q95}"
+        );
+    }
+}

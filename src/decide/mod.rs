@@ -2,6 +2,8 @@
 //!
 //! Works on any [`LifeDistribution`]; knows nothing of SQL.
 
+pub mod forecast;
+
 use crate::dist::LifeDistribution;
 use crate::error::{show_number, LifeError, LifeResult};
 use argmin::core::{CostFunction, Executor};

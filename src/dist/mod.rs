@@ -22,7 +22,9 @@ use crate::error::{LifeError, LifeResult};
 ///
 /// Implementors supply the family-specific formulas; survival, unreliability,
 /// density and conditional failure probability follow from them.
-pub trait LifeDistribution: Send + Sync + std::fmt::Debug {
+pub trait LifeDistribution:
+    Send + Sync + std::fmt::Debug + std::panic::RefUnwindSafe + std::panic::UnwindSafe
+{
     /// The family this distribution belongs to.
     fn family(&self) -> &'static Family;
     /// Parameter values in the order of [`Family::params`].
