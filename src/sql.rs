@@ -4,7 +4,7 @@
 //! and per-statement caching of parsed models. No formulas live here: each
 //! function hands validated numbers to `fit`, `dist`, `decide` or `usage`.
 
-use crate::decide;
+use crate::decide::{self, policy, renewal};
 use crate::error::{show_number, LifeError};
 use crate::fit::{self, bounds, compare, km, FitOptions};
 use crate::model::Model;
@@ -700,6 +700,66 @@ fn cost_svg(ctx: &Context<'_>) -> std::result::Result<Option<String>, LifeError>
     crate::plot::model_cost_svg(&m, cp, cf, &title, &age_label).map(Some)
 }
 
+/// `life_replacement(model, cost_planned, cost_failure [, largest_age [, beyond_factor]])`:
+/// the age-replacement verdict as JSON.
+fn replacement(ctx: &Context<'_>) -> std::result::Result<Option<String>, LifeError> {
+    if any_null(ctx) {
+        return Ok(None);
+    }
+    let arg = |i: usize, name: &'static str| -> std::result::Result<f64, LifeError> {
+        any_finite(name, number(ctx.get_raw(i), name)?.unwrap_or(f64::NAN))
+    };
+    let (cp, cf) = (arg(1, "cost_planned")?, arg(2, "cost_failure")?);
+    let largest = if ctx.len() > 3 {
+        Some(arg(3, "largest_age")?)
+    } else {
+        None
+    };
+    let factor = if ctx.len() > 4 {
+        arg(4, "beyond_factor")?
+    } else {
+        policy::DEFAULT_BEYOND_FACTOR
+    };
+    let m = crate::sql_tables::model_of(Some(ctx.get_raw(0)))?;
+    let v = policy::age_replacement_verdict(m.dist.as_ref(), cp, cf, largest, factor)?;
+    Ok(Some(
+        serde_json::json!({
+            "optimum": v.optimum,
+            "cost_rate_at_optimum": v.cost_rate_at_optimum,
+            "run_to_failure_rate": v.run_to_failure_rate,
+            "saving": v.saving,
+            "reason": v.reason,
+        })
+        .to_string(),
+    ))
+}
+
+/// `life_block_replacement(model, cost_planned, cost_failure, max_interval)`.
+fn block(ctx: &Context<'_>) -> std::result::Result<Option<String>, LifeError> {
+    if any_null(ctx) {
+        return Ok(None);
+    }
+    let arg = |i: usize, name: &'static str| -> std::result::Result<f64, LifeError> {
+        any_finite(name, number(ctx.get_raw(i), name)?.unwrap_or(f64::NAN))
+    };
+    let (cp, cf, max_t) = (
+        arg(1, "cost_planned")?,
+        arg(2, "cost_failure")?,
+        arg(3, "max_interval")?,
+    );
+    let m = crate::sql_tables::model_of(Some(ctx.get_raw(0)))?;
+    let d = m.dist.as_ref();
+    let best = policy::block_replacement_optimum(d, cp, cf, max_t)?;
+    Ok(Some(
+        serde_json::json!({
+            "interval": best.map(|b| b.0),
+            "cost_rate": best.map(|b| b.1),
+            "run_to_failure_rate": cf / d.mean(),
+        })
+        .to_string(),
+    ))
+}
+
 /// An instant argument of `life_usage`: None for NULL.
 fn instant_arg(
     v: ValueRef<'_>,
@@ -815,6 +875,24 @@ pub fn register(conn: &Connection) -> Result<()> {
         }
     }
     crate::sql_tables::register_tables(conn)?;
+    for n_args in 3..=5 {
+        conn.create_scalar_function("life_replacement", n_args, flags(), |ctx| {
+            replacement(ctx).map_err(|e| user_error("life_replacement", e))
+        })?;
+    }
+    model_scalar(
+        conn,
+        "life_availability_age",
+        ["downtime_planned", "downtime_failure"],
+        any_finite,
+        |m, [tp, tf]| policy::availability_optimum(m.dist.as_ref(), tp, tf),
+    )?;
+    model_scalar(conn, "life_renewal", ["t"], age_like, |m, [t]| {
+        renewal::renewal_function(m.dist.as_ref(), t).map(Some)
+    })?;
+    conn.create_scalar_function("life_block_replacement", 4, flags(), |ctx| {
+        block(ctx).map_err(|e| user_error("life_block_replacement", e))
+    })?;
     for n_args in [3, 4] {
         conn.create_window_function(
             "life_forecast",

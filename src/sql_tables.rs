@@ -520,9 +520,80 @@ pub static PLOT_POINTS: TableSpec = TableSpec {
     },
 };
 
+/// `life_cost_curve(model, cost_planned, cost_failure [, t_to [, points]])`:
+/// cost per unit usage of age replacement (planned, unplanned, total) and of
+/// block replacement at each candidate interval.
+pub static COST_CURVE: TableSpec = TableSpec {
+    name: "life_cost_curve",
+    columns: &[
+        "age",
+        "planned_rate",
+        "unplanned_rate",
+        "total_rate",
+        "block_rate",
+        "is_optimum",
+    ],
+    args: &["model", "cost_planned", "cost_failure", "t_to", "points"],
+    required: 3,
+    produce: |a| {
+        use crate::decide::{check_costs, optimal_replacement_age, policy, renewal};
+        let m = model_of(a[0])?;
+        let cp = number_of(a[1], "cost_planned", f64::NAN)?;
+        let cf = number_of(a[2], "cost_failure", f64::NAN)?;
+        check_costs(cp, cf)?;
+        let d = m.dist.as_ref();
+        let optimum = optimal_replacement_age(d, cp, cf)?;
+        let default_end = match optimum {
+            Some(t) => (3.0 * t).max(d.quantile(0.9)),
+            None => d.quantile(0.99),
+        };
+        let to = number_of(a[3], "t_to", default_end)?;
+        let points = number_of(a[4], "points", 50.0)?;
+        if !(to.is_finite() && to > 0.0) {
+            return Err(LifeError::bad(
+                "t_to",
+                "must be a finite number > 0",
+                show_number(to),
+            ));
+        }
+        if !(points.fract() == 0.0 && (2.0..=10_000.0).contains(&points)) {
+            return Err(LifeError::bad(
+                "points",
+                "must be a whole number from 2 to 10000",
+                show_number(points),
+            ));
+        }
+        let n = points as usize;
+        let mut ages: Vec<f64> = (1..=n).map(|i| to * i as f64 / n as f64).collect();
+        if let Some(t) = optimum.filter(|t| *t <= to) {
+            ages.push(t);
+            ages.sort_by(f64::total_cmp);
+        }
+        let curve = policy::age_replacement_curve(d, cp, cf, &ages)?;
+        let renewals = renewal::renewal_curve(d, &ages).ok();
+        Ok(curve
+            .iter()
+            .enumerate()
+            .map(|(i, c)| {
+                let block = renewals
+                    .as_ref()
+                    .map_or(Value::Null, |r| real((cp + cf * r[i]) / c.age));
+                vec![
+                    Value::Real(c.age),
+                    real(c.planned_rate),
+                    real(c.unplanned_rate),
+                    real(c.total_rate),
+                    block,
+                    Value::Integer(i64::from(optimum == Some(c.age))),
+                ]
+            })
+            .collect())
+    },
+};
+
 /// Registers every table function on `conn`.
 pub fn register_tables(conn: &Connection) -> Result<()> {
-    for spec in [&CURVE, &PLOT_POINTS] {
+    for spec in [&CURVE, &PLOT_POINTS, &COST_CURVE] {
         register_table(conn, spec)?;
     }
     Ok(())

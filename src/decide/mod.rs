@@ -3,6 +3,8 @@
 //! Works on any [`LifeDistribution`]; knows nothing of SQL.
 
 pub mod forecast;
+pub mod policy;
+pub mod renewal;
 
 use crate::dist::LifeDistribution;
 use crate::error::{show_number, LifeError, LifeResult};
@@ -129,5 +131,13 @@ pub fn optimal_replacement_age(
         .state()
         .best_param
         .ok_or_else(|| LifeError::NoConvergence("replacement age search found no root".into()))?;
+    // Where the hazard rises and then falls (lognormal, log-logistic) the
+    // first root is only a local minimum; if it costs no less than running
+    // to failure (cf / mean, zero for an infinite mean), replacement does
+    // not pay at any age.
+    let run_to_failure = cost_failure / d.mean();
+    if age_replacement_cost_rate(d, cost_planned, cost_failure, t) >= run_to_failure {
+        return Ok(None);
+    }
     Ok(Some(t))
 }
