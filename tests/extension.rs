@@ -194,6 +194,69 @@ fn demo_runs_in_the_shell() {
     }
     assert!(stdout.contains("INVENTED"));
     assert!(stdout.contains("licensed engineers"));
+    assert!(stdout.contains("Planner's table"));
+    assert!(stdout.contains("spares 90 d (95%)"));
+    // The report: one HTML page written by SQL, with the pictures embedded.
+    let report = Path::new(ROOT).join("target/lifedata-demo-report.html");
+    let html = std::fs::read_to_string(&report).unwrap();
+    assert!(html.starts_with("<!DOCTYPE html>") && html.trim_end().ends_with("</html>"));
+    assert_eq!(html.matches("<section>").count(), 5);
+    assert!(html.matches("<svg").count() >= 8, "pictures missing");
+    assert!(html.contains("licensed engineers"));
+    open_in_chromium(&report);
+}
+
+/// Opens the report in headless Chromium (Debian's `chromium`, which
+/// `.ci/run` installs): no console errors, and a screenshot with the plots
+/// drawn (a near-blank page compresses to a few kilobytes).
+fn open_in_chromium(report: &Path) {
+    let Some(browser) = ["chromium", "chromium-browser"].into_iter().find(|b| {
+        Command::new(b)
+            .arg("--version")
+            .output()
+            .is_ok_and(|o| o.status.success())
+    }) else {
+        eprintln!("SKIPPED: no chromium to open the report (.ci/run installs it)");
+        return;
+    };
+    let dir = Path::new(env!("CARGO_TARGET_TMPDIR"));
+    let shot = dir.join("demo-report.png");
+    let _ = std::fs::remove_file(&shot);
+    let out = Command::new(browser)
+        .args([
+            "--headless",
+            "--no-sandbox",
+            "--disable-gpu",
+            "--disable-quic",
+            "--no-first-run",
+            "--disable-background-networking",
+            "--disable-component-update",
+            "--disable-sync",
+            "--enable-logging=stderr",
+            "--v=0",
+            "--window-size=1100,3200",
+        ])
+        .arg(format!(
+            "--user-data-dir={}",
+            dir.join("chromium-profile").display()
+        ))
+        .arg(format!("--screenshot={}", shot.display()))
+        .arg(format!("file://{}", report.display()))
+        .output()
+        .unwrap();
+    let log = text(&out.stderr);
+    let console: Vec<&str> = log
+        .lines()
+        .filter(|l| l.contains("CONSOLE") || l.contains("Uncaught"))
+        .collect();
+    assert!(console.is_empty(), "console messages: {console:?}");
+    let size = std::fs::metadata(&shot).map(|m| m.len()).unwrap_or(0);
+    assert!(
+        size > 100_000,
+        "screenshot {} is {size} bytes",
+        shot.display()
+    );
+    eprintln!("report screenshot: {} ({size} bytes)", shot.display());
 }
 
 fn python_with_extensions() -> Option<PathBuf> {
