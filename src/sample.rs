@@ -328,8 +328,13 @@ impl Sample {
     /// Right-censored data merged by age (failures and suspensions per
     /// distinct age), sorted by age; valid when [`Sample::is_right_censored_only`].
     pub fn groups(&self) -> Vec<AgeGroup> {
-        let mut out: Vec<AgeGroup> = Vec::with_capacity(self.groups.len());
-        for o in self.obs() {
+        Self::groups_of(&self.obs())
+    }
+
+    /// [`Sample::groups`] from observations already sorted by [`Sample::obs`].
+    pub fn groups_of(obs: &[Obs]) -> Vec<AgeGroup> {
+        let mut out: Vec<AgeGroup> = Vec::with_capacity(obs.len());
+        for &o in obs {
             let (f, s) = if o.failed() {
                 (o.count, 0.0)
             } else {

@@ -255,6 +255,11 @@ impl LifeAggregate {
         if ctx.len() <= at {
             return Ok(());
         }
+        if let (Some((seen, _)), ValueRef::Text(t)) = (&st.options, ctx.get_raw(at)) {
+            if seen.as_slice() == t {
+                return Ok(());
+            }
+        }
         match ctx.get_raw(at) {
             ValueRef::Null => Ok(()),
             ValueRef::Text(t) => match &st.options {
@@ -328,7 +333,14 @@ impl LifeAggregate {
                 if failed && age == 0.0 {
                     return Err(LifeError::bad("age", "must be > 0 for a failure", "0"));
                 }
-                Sample::observation(age, failed.then_some(age), 0.0, 1)?
+                // Already validated: build the observation directly (this is
+                // the per-row hot path of life_fit).
+                Obs {
+                    earliest: age + 0.0,
+                    latest: if failed { age + 0.0 } else { f64::INFINITY },
+                    entry: 0.0,
+                    count: 1.0,
+                }
             }
             Form::Interval => {
                 let earliest = number(ctx.get_raw(f), "earliest")?;

@@ -295,7 +295,7 @@ pub fn fit(sample: &Sample, opts: &FitOptions, skipped: u64) -> LifeResult<Model
         && sample.is_right_censored_only()
         && opts.fixed.iter().all(Option::is_none)
     {
-        let est = weibull_mle::fit(&sample.groups())?;
+        let est = weibull_mle::fit(&Sample::groups_of(&obs))?;
         let d = (fam.build)(&[est.shape, est.scale])?;
         (
             vec![est.shape, est.scale],
