@@ -479,10 +479,8 @@ impl LocationProfile<'_> {
         let d = (self.family.build)(&params).ok()?;
         let ll = loglik(d.as_ref(), self.obs);
         let mut cov = vec![vec![0.0; 3]; 3];
-        for i in 0..2 {
-            for j in 0..2 {
-                cov[i][j] = est.cov[i][j];
-            }
+        for (row, est_row) in cov.iter_mut().zip(est.cov.iter()) {
+            row[..2].copy_from_slice(est_row);
         }
         Some(Estimate {
             params,

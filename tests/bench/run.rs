@@ -64,7 +64,10 @@ fn pair(db: &Path, ours: &str, theirs: &str, runs: usize) -> (f64, f64) {
 }
 
 fn peak_kib(db: &Path, query: &str) -> f64 {
-    let out = shell(db, &format!("{query};\n.shell grep VmHWM /proc/$PPID/status\n"));
+    let out = shell(
+        db,
+        &format!("{query};\n.shell grep VmHWM /proc/$PPID/status\n"),
+    );
     out.lines()
         .find_map(|l| l.strip_prefix("VmHWM:"))
         .and_then(|l| l.split_whitespace().next())
@@ -75,8 +78,12 @@ fn peak_kib(db: &Path, query: &str) -> f64 {
 fn main() {
     let quick = std::env::args().any(|a| a == "--quick");
     let scale = if quick { 10 } else { 1 };
-    let (grouped_rows, big_rows, reader_rows, runs) =
-        (1_000_000 / scale, 10_000_000 / scale, 1_000_000 / scale, if quick { 3 } else { 5 });
+    let (grouped_rows, big_rows, reader_rows, runs) = (
+        1_000_000 / scale,
+        10_000_000 / scale,
+        1_000_000 / scale,
+        if quick { 3 } else { 5 },
+    );
     let dir = PathBuf::from(ROOT).join("target/bench");
     std::fs::create_dir_all(&dir).unwrap();
     let db = dir.join(if quick { "bench-quick.db" } else { "bench.db" });
@@ -106,7 +113,10 @@ fn main() {
     }
     let m = r#"'{"dist":"weibull","shape":2.2,"scale":1000}'"#;
     println!("lifedata benchmark (median of {runs} runs, one sqlite3 shell process per pair, file database {})", db.display());
-    println!("{:<58} {:>9} {:>9} {:>7} {:>7}", "comparison", "lifedata", "SQLite", "ratio", "target");
+    println!(
+        "{:<58} {:>9} {:>9} {:>7} {:>7}",
+        "comparison", "lifedata", "SQLite", "ratio", "target"
+    );
     let report = |name: &str, (a, b): (f64, f64), target: &str| {
         println!("{name:<58} {a:>8.3}s {b:>8.3}s {:>6.2}x {target:>7}", a / b);
     };
@@ -122,7 +132,12 @@ fn main() {
     );
     report(
         &format!("life_fit over one group of {big_rows} lives vs avg"),
-        pair(&db, "SELECT length(life_fit(age, failed)) FROM big", "SELECT avg(age) FROM big", runs),
+        pair(
+            &db,
+            "SELECT length(life_fit(age, failed)) FROM big",
+            "SELECT avg(age) FROM big",
+            runs,
+        ),
         "2x",
     );
     let plain_cond = "1 - exp(-(pow((age + 30) / 1000.0, 2.2) - pow(age / 1000.0, 2.2)))";
