@@ -70,6 +70,9 @@ fn age_like(arg: &'static str, x: f64) -> std::result::Result<f64, LifeError> {
     }
 }
 
+/// A model's text with its parsed form.
+type RecentModel = (Box<[u8]>, Arc<Model>);
+
 thread_local! {
     /// Recently parsed models on this thread, most recent first, keyed by
     /// their exact text. SQLite keeps auxiliary data only for constant
@@ -77,7 +80,7 @@ thread_local! {
     /// parsed on every row; measured with tests/bench, that made readers 2.5
     /// to 4 times slower than plain SQL. A handful of entries covers the
     /// usual per-class join; comparing the bytes keeps it exact.
-    static RECENT_MODELS: std::cell::RefCell<Vec<(Box<[u8]>, Arc<Model>)>> =
+    static RECENT_MODELS: std::cell::RefCell<Vec<RecentModel>> =
         const { std::cell::RefCell::new(Vec::new()) };
 }
 
