@@ -25,7 +25,7 @@ fn flags() -> FunctionFlags {
 
 /// An SQL error whose message starts with the function name.
 fn user_error(func: &str, e: impl std::fmt::Display) -> Error {
-    Error::UserFunctionError(format!("{func}: {e}").into())
+    Error::UserFunctionError(format!("{func}: {e}").replace('\0', "\\0").into())
 }
 
 /// Renders an SQL value for an error message (text clipped, blobs sized).
@@ -129,8 +129,8 @@ fn model_arg(ctx: &Context<'_>, idx: usize, func: &'static str) -> Result<Option
             if let Some(m) = ctx.get_aux::<Arc<Model>>(idx as i32)? {
                 return Ok(Some(Arc::clone(&m)));
             }
-            let (m, same_as_last) =
-                parse_model_cached(bytes, func).map_err(|e| Error::UserFunctionError(e.into()))?;
+            let (m, same_as_last) = parse_model_cached(bytes, func)
+                .map_err(|e| Error::UserFunctionError(e.replace('\0', "\\0").into()))?;
             // A model that was also the last one but has no auxiliary data
             // is not a constant (SQLite dropped it): storing it again would
             // only cost an allocation per row.

@@ -87,6 +87,9 @@ pub(crate) fn unit_count(o: &Obs) -> LifeResult<f64> {
     }
 }
 
+/// Most failed units that plotting positions (and rank regression) expand.
+pub const MAX_PLOTTED_FAILURES: f64 = 10_000_000.0;
+
 /// Median-rank plotting positions of every failed unit, in age order.
 ///
 /// Accepts exact failures and suspensions observed from new, each standing
@@ -114,6 +117,15 @@ pub fn plotting_positions(obs: &[Obs], positions: Positions) -> LifeResult<Vec<P
     // the order the caller's groups arrive in.
     units.sort_by(|a, b| a.0.total_cmp(&b.0).then(b.1.cmp(&a.1)));
     let n: f64 = units.iter().map(|u| u.2).sum();
+    // One point per failed unit: refuse sizes that would exhaust memory
+    // (a hostile count of 1e12 would otherwise take the host down).
+    let failed_units: f64 = units.iter().filter(|u| u.1).map(|u| u.2).sum();
+    if failed_units > MAX_PLOTTED_FAILURES {
+        return Err(LifeError::NotEstimable(format!(
+            "plotting positions give one point per failed unit; {failed_units} failures \
+             is more than the {MAX_PLOTTED_FAILURES} this extension plots"
+        )));
+    }
 
     let mut out = Vec::new();
     let mut before = 0.0; // units ranked so far
