@@ -226,14 +226,15 @@ fn data() -> impl Strategy<Value = (f64, f64, Vec<f64>, Vec<bool>)> {
 }
 
 proptest! {
-    #![proptest_config(config(24))]
+    #![proptest_config(config(300))]
 
     /// Maximum likelihood does not depend on the age unit, for every family:
     /// with every age multiplied by k, the fit's scale (and the weibull3
     /// location, the normal mu and sigma) is k times the fit's, lognormal mu
-    /// moves by ln k, and shapes and lognormal sigma stay, to 1e-9 relative
-    /// (the solvers converge to about 1e-10; the ages times k are rounded
-    /// once). Either both fits succeed or both refuse with the same reason.
+    /// moves by ln k, and shapes and lognormal sigma stay: to 1e-9 relative
+    /// (the ages times k are rounded once), 1e-6 for the gamma and the
+    /// 3-parameter Weibull (see the tolerance below). Either both fits
+    /// succeed or both refuse with the same reason.
     #[test]
     fn fits_scale_with_the_age_unit((shape, scale, us, flags) in data(), lk in -3.0..3.0f64) {
         let k = 10f64.powf(lk);
@@ -268,12 +269,16 @@ proptest! {
                     Moves::PlusLn => (x + k.ln(), (y - x - k.ln()).abs()),
                     Moves::Stays => (*x, (y - x).abs() / x.abs()),
                 };
-                // The Weibull's profile Newton solver reaches ~1e-14; the
-                // generic search (Nelder-Mead and finite-difference Newton
-                // steps) and the 3-parameter location search stop at ~1e-8
-                // and below (measured: gamma shape up to 1.1e-7, weibull3
-                // 2.4e-9), so those are held to the project's 1e-6.
-                let tol = if fam.name == "weibull" { 1e-9 } else { 1e-6 };
+                // The Weibull's profile Newton solver reaches ~1e-14, the
+                // generic search about 1e-11 for the exponential, lognormal,
+                // normal and log-logistic (measured worst 3e-11). For the
+                // gamma and the 3-parameter Weibull it stops short: over
+                // 1 500 random samples of this kind, 14% of gamma and 26% of
+                // weibull3 fit pairs differed by more than 1e-9 (worst 4.8e-7
+                // and 1.4e-7; in the pairs checked against 40-digit maxima,
+                // one fit of the pair was off by that much). Those two are
+                // held to 1e-6 until the solver polishes them fully.
+                let tol = if matches!(fam.name, "gamma" | "weibull3") { 1e-6 } else { 1e-9 };
                 prop_assert!(err <= tol,
                     "{} {}: {x:e} with ages, {y:e} with ages x {k:e}, want {want:e} (error {err:e})\nrows {rows:?}",
                     fam.name, info.name);

@@ -68,7 +68,7 @@ fuzz_target!(|data: &[u8]| {
         let opt = g.fit_options();
         let rows = g.below(40);
         for _ in 0..rows {
-            let row_opt = if g.byte() % 32 == 0 {
+            let row_opt = if g.byte().is_multiple_of(32) {
                 g.fit_options()
             } else {
                 opt.clone()
@@ -78,12 +78,12 @@ fuzz_target!(|data: &[u8]| {
                 age(&mut g),
                 flag(&mut g),
                 age(&mut g),
-                if g.byte() % 3 == 0 {
+                if g.byte().is_multiple_of(3) {
                     Sql::Null
                 } else {
                     age(&mut g)
                 },
-                if g.byte() % 5 == 0 {
+                if g.byte().is_multiple_of(5) {
                     age(&mut g)
                 } else {
                     Sql::Integer(0)
@@ -160,7 +160,7 @@ fuzz_target!(|data: &[u8]| {
                 ("life_plot_points", "SELECT * FROM life_plot_points(?1, ?2)"),
                 ("life_plot_svg", "SELECT life_plot_svg(?1, 't', 'h', ?2)"),
             ] {
-                if g.byte() % 2 == 0 && (plots || !f.starts_with("life_plot")) {
+                if g.byte().is_multiple_of(2) && (plots || !f.starts_with("life_plot")) {
                     run(c, f, sql, &[m.clone(), p.clone()], 1000);
                 }
             }
