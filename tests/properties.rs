@@ -1,5 +1,4 @@
-//! Property tests (proptest) of invariants that hold for every family and
-//! every fit, whatever the parameters and data:
+//! Property tests (proptest) of invariants of every family and every fit:
 //!
 //! - quantile and unreliability invert each other, to a tolerance set by
 //!   the conditioning of the inversion (see [`elasticity`]);
@@ -9,8 +8,10 @@
 //!   multiplying every age by k multiplies the scale-type parameters by k
 //!   and leaves the shapes alone;
 //! - adding suspensions below the first failure does not lower the
-//!   maximum-likelihood Weibull B10 life (see the test for the argument,
-//!   and for the direction: the suspensions add survival evidence).
+//!   Weibull B10 life: a theorem with a known shape; with shape and scale
+//!   both fitted it holds on Weibull-like samples but is not a theorem (the
+//!   tests give the argument, a counterexample, and the direction: the
+//!   suspensions add survival evidence, so the B10 rises).
 //!
 //! Case counts keep the file well under a minute in a debug build.
 
@@ -287,7 +288,8 @@ proptest! {
     }
 }
 
-/// Adds `extra` suspensions at fractions of the first failure age.
+/// The rows with a suspension added at each of `fractions` times the first
+/// failure age.
 fn with_early_suspensions(rows: &[(f64, bool)], fractions: &[f64]) -> Vec<(f64, bool)> {
     let first = rows
         .iter()

@@ -63,7 +63,19 @@ fuzz_target!(|data: &[u8]| {
     obs.iter().for_each(|o| forward.push(*o));
     let mut backward = Sample::new();
     obs.iter().rev().for_each(|o| backward.push(*o));
+    let show = std::env::var_os("LIFEDATA_FUZZ_SHOW").is_some();
+    if show {
+        eprintln!("options {text} rows {obs:?}");
+    }
+    let started = std::time::Instant::now();
     let a = fit(&forward, &opts, 0);
+    if show {
+        eprintln!(
+            "  -> {:?} in {:.3} s",
+            a.as_ref().map(|m| m.to_json()),
+            started.elapsed().as_secs_f64()
+        );
+    }
     let b = fit(&backward, &opts, 0);
     match (&a, &b) {
         (Ok(a), Ok(b)) => assert_eq!(a.to_json(), b.to_json(), "{text} {obs:?}"),
