@@ -5,7 +5,7 @@
 //! model may be typed by hand or arrive from anywhere. Fits nothing.
 
 use crate::dist::{self, LifeDistribution};
-use crate::error::{show_number, LifeError, LifeResult};
+use crate::error::{LifeError, LifeResult};
 use crate::sample::{Obs, Sample};
 use serde_json::{json, Map, Value};
 
@@ -392,11 +392,6 @@ fn clip(text: &str) -> String {
         let head: String = text.chars().take(MAX).collect();
         format!("{head}...")
     }
-}
-
-/// Renders a parameter for messages.
-pub fn show(x: f64) -> String {
-    show_number(x)
 }
 
 #[cfg(test)]

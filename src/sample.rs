@@ -42,6 +42,9 @@ impl Hasher for AgeHasher {
     }
 }
 
+/// Most units a sample holds.
+pub const MAX_UNITS: u64 = 1_000_000_000_000_000_000;
+
 type AgeMap = HashMap<[u64; 3], u64, BuildHasherDefault<AgeHasher>>;
 /// Failures and suspensions observed from new, keyed by the age's bits:
 /// [failures, suspensions]. Most fleet rows are of this kind; an 8-byte key
@@ -199,8 +202,21 @@ impl Sample {
     }
 
     /// Adds `count` units described by an observation built with [`Sample::observation`].
-    pub fn push(&mut self, o: Obs) {
+    /// Refuses to hold more than [`MAX_UNITS`] units in all (the counts are
+    /// summed in 64 bits).
+    pub fn push(&mut self, o: Obs) -> LifeResult<()> {
         let c = o.count as u64;
+        if self
+            .len()
+            .checked_add(c)
+            .is_none_or(|total| total > MAX_UNITS)
+        {
+            return Err(LifeError::bad(
+                "count",
+                "must keep the total below 1e18 units",
+                format!("{c} on top of {}", self.len()),
+            ));
+        }
         let kind = o.kind();
         if o.entry == 0.0 && matches!(kind, Kind::Failure | Kind::Suspension) {
             let slot = usize::from(kind == Kind::Suspension);
@@ -212,6 +228,7 @@ impl Sample {
         if o.entry > 0.0 {
             self.truncated += c;
         }
+        Ok(())
     }
 
     /// Removes units previously added (window frames sliding on). Removing
@@ -264,8 +281,7 @@ impl Sample {
             latest: if failed { age } else { f64::INFINITY },
             entry: 0.0,
             count: 1.0,
-        });
-        Ok(())
+        })
     }
 
     /// Removes one unit life added with [`Sample::add`].
@@ -413,7 +429,7 @@ impl Sample {
             if count == 0 {
                 continue;
             }
-            s.push(Self::observation(age, failed.then_some(age), 0.0, count)?);
+            s.push(Self::observation(age, failed.then_some(age), 0.0, count)?)?;
         }
         Ok(s)
     }

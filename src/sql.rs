@@ -361,7 +361,7 @@ impl LifeAggregate {
                         Some(c) => {
                             return Err(LifeError::bad(
                                 "count",
-                                "must be a whole number >= 0",
+                                "must be a whole number from 0 to 1e15",
                                 show_number(c),
                             ))
                         }
@@ -521,7 +521,8 @@ impl Aggregate<State, Option<String>> for LifeAggregate {
             Some((group, o)) => match group {
                 Some(g) => st.groups.entry(g).or_default().push(o),
                 None => st.sample.push(o),
-            },
+            }
+            .map_err(|e| user_error(self.name, e))?,
         }
         Ok(())
     }

@@ -159,7 +159,7 @@ pub fn compare_groups(
     let mut separate_loglik = 0.0;
     for (name, s) in groups {
         for o in s.obs() {
-            pooled.push(o);
+            pooled.push(o)?;
         }
         let m = fit::fit(s, &plain, 0).map_err(|e| {
             LifeError::NotEstimable(format!("group '{name}' cannot be fitted on its own: {e}"))

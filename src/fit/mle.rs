@@ -264,9 +264,6 @@ fn polish(f: &dyn Fn(&[f64]) -> f64, mut x: Vec<f64>) -> Vec<f64> {
         let step: Vec<f64> = (0..x.len())
             .map(|i| -(0..x.len()).map(|j| hinv[i][j] * g[j]).sum::<f64>())
             .collect();
-        if std::env::var("LIFEDATA_DEBUG").is_ok() {
-            eprintln!("polish x={x:?} f={fx} g={g:?} step={step:?}");
-        }
         let mut t = 1.0;
         let mut moved = false;
         while t > 1e-4 {
@@ -472,7 +469,7 @@ impl LocationProfile<'_> {
             let shifted_obs =
                 crate::sample::Sample::observation(t, o.failed().then_some(t), 0.0, o.count as u64)
                     .ok()?;
-            shifted.push(shifted_obs);
+            shifted.push(shifted_obs).ok()?;
         }
         let est = crate::fit::weibull_mle::fit(&shifted.groups()).ok()?;
         let params = vec![est.shape, est.scale, location];
@@ -526,6 +523,12 @@ pub fn fit_with_location(family: &'static Family, obs: &[Obs]) -> LifeResult<Est
             LifeError::NoConvergence(format!("the {} location search failed: {e}", family.name))
         })?;
     let location = result.state().best_param.unwrap_or(0.0);
+    if !location.is_finite() {
+        return Err(LifeError::NotEstimable(format!(
+            "the {} location search found no usable value for ages this far apart",
+            family.name
+        )));
+    }
     if location > upper * (1.0 - 1e-4) {
         return Err(LifeError::NotEstimable(format!(
             "the {} location runs to the first failure ({upper}): the likelihood has no \

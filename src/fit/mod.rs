@@ -197,32 +197,6 @@ impl FitOptions {
     }
 }
 
-/// Censored log-likelihood of right-censored merged data (failures and
-/// suspensions per age); see [`mle::loglik`] for every kind of censoring.
-pub fn loglik(d: &dyn dist::LifeDistribution, groups: &[crate::sample::AgeGroup]) -> f64 {
-    let obs: Vec<Obs> = groups
-        .iter()
-        .flat_map(|g| {
-            [
-                (g.failures > 0.0).then_some(Obs {
-                    earliest: g.age,
-                    latest: g.age,
-                    entry: 0.0,
-                    count: g.failures,
-                }),
-                (g.suspensions > 0.0).then_some(Obs {
-                    earliest: g.age,
-                    latest: f64::INFINITY,
-                    entry: 0.0,
-                    count: g.suspensions,
-                }),
-            ]
-        })
-        .flatten()
-        .collect();
-    mle::loglik(d, &obs)
-}
-
 /// Sum over exact failures and suspensions of count * (t^beta - entry^beta):
 /// the total "Weibull-transformed exposure" behind the known-shape method.
 /// None when the data hold left- or interval-censored lives.
@@ -337,6 +311,19 @@ pub fn fit(sample: &Sample, opts: &FitOptions, skipped: u64) -> LifeResult<Model
         }
         (est.params, est.cov, est.loglik)
     };
+    // One check for every estimator: a model whose numbers are not finite
+    // would be written with nulls that its own readers refuse.
+    if params
+        .iter()
+        .chain(cov.iter().flatten())
+        .any(|v| !v.is_finite())
+    {
+        return Err(LifeError::NotEstimable(format!(
+            "the {} fit gave numbers out of range (parameters {params:?}); \
+             the data or the fixed values are too extreme",
+            fam.name
+        )));
+    }
     Ok(Model {
         dist: (fam.build)(&params)?,
         fit: Some(FitSummary {

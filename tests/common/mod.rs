@@ -30,7 +30,8 @@ pub fn sample_of(rows: &Value) -> Sample {
     let mut s = Sample::new();
     for r in rows.as_array().unwrap() {
         let latest = if r[1].is_null() { None } else { Some(f(&r[1])) };
-        s.push(Sample::observation(f(&r[0]), latest, f(&r[2]), r[3].as_u64().unwrap()).unwrap());
+        s.push(Sample::observation(f(&r[0]), latest, f(&r[2]), r[3].as_u64().unwrap()).unwrap())
+            .unwrap();
     }
     s
 }

@@ -60,9 +60,14 @@ fuzz_target!(|data: &[u8]| {
         return;
     }
     let mut forward = Sample::new();
-    obs.iter().for_each(|o| forward.push(*o));
+    let pushed = obs.iter().try_for_each(|o| forward.push(*o));
     let mut backward = Sample::new();
-    obs.iter().rev().for_each(|o| backward.push(*o));
+    let pushed_back = obs.iter().rev().try_for_each(|o| backward.push(*o));
+    // Too many units in all: both orders refuse alike, nothing to fit.
+    assert_eq!(pushed.is_ok(), pushed_back.is_ok());
+    if pushed.is_err() {
+        return;
+    }
     let show = std::env::var_os("LIFEDATA_FUZZ_SHOW").is_some();
     if show {
         eprintln!("options {text} rows {obs:?}");
