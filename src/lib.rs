@@ -16,6 +16,7 @@ pub mod model;
 pub mod plot;
 pub mod sample;
 pub mod sql;
+mod sql_aggregate;
 pub mod sql_forecast;
 pub mod sql_tables;
 pub mod usage;

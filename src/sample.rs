@@ -51,6 +51,144 @@ type AgeMap = HashMap<[u64; 3], u64, BuildHasherDefault<AgeHasher>>;
 /// halves `life_fit`'s per-row map cost against the general map (measured).
 type PlainMap = HashMap<u64, [u64; 2], BuildHasherDefault<AgeHasher>>;
 
+/// Largest whole-number age counted in the dense table.
+const DENSE_MAX: usize = 1 << 22;
+
+/// Failures and suspensions observed from new: [failures, suspensions] per
+/// age. Whole-number ages (days, hours, km as fleets record them) are
+/// counted in a table indexed by the age itself, the rest in a map keyed by
+/// the age's bits. The table is a measured need: it drops `life_fit`'s
+/// per-row cost on day-resolution ages (no hashing, one memory access) and
+/// comes out already sorted, so a fit needs no sort. It grows only while it
+/// stays within eight slots per row seen (128 bytes, about what a map
+/// entry costs), so a few huge ages never allocate a huge table; ages
+/// beyond it go to the map.
+#[derive(Debug, Clone, Default)]
+struct PlainCounts {
+    dense: Vec<[u64; 2]>,
+    /// Distinct ages with a nonzero count in `dense`.
+    dense_used: usize,
+    map: PlainMap,
+    /// Rows added (bounds the table's growth).
+    added: u64,
+}
+
+impl PlainCounts {
+    /// The table slot of a whole-number age, growing the table when the
+    /// growth rule allows it.
+    #[inline(always)]
+    fn slot(&mut self, age: f64) -> Option<usize> {
+        let i = age as usize; // saturating; exact check below
+        if i as f64 != age {
+            return None;
+        }
+        if i < self.dense.len() {
+            return Some(i);
+        }
+        let want = (i + 1).next_power_of_two().max(64);
+        let allowed = (8 * self.added as usize).min(DENSE_MAX);
+        if want > allowed {
+            return None;
+        }
+        self.grow(want);
+        Some(i)
+    }
+
+    #[cold]
+    fn grow(&mut self, len: usize) {
+        let old = self.dense.len();
+        self.dense.resize(len, [0, 0]);
+        // Ages counted in the map that the table now covers move into it,
+        // so every age has exactly one home.
+        let moving: Vec<u64> = self
+            .map
+            .keys()
+            .copied()
+            .filter(|&b| {
+                let a = f64::from_bits(b);
+                let i = a as usize;
+                i as f64 == a && i >= old && i < len
+            })
+            .collect();
+        for b in moving {
+            if let Some(c) = self.map.remove(&b) {
+                let i = f64::from_bits(b) as usize;
+                self.dense[i] = c;
+                self.dense_used += 1;
+            }
+        }
+    }
+
+    #[inline(always)]
+    fn add(&mut self, age: f64, which: usize, c: u64) {
+        self.added += 1;
+        match self.slot(age) {
+            Some(i) => {
+                let cell = &mut self.dense[i];
+                if cell[0] == 0 && cell[1] == 0 {
+                    self.dense_used += 1;
+                }
+                cell[which] += c;
+            }
+            None => self.map.entry(age.to_bits()).or_insert([0, 0])[which] += c,
+        }
+    }
+
+    /// Removes counts; false when they are not present.
+    fn remove(&mut self, age: f64, which: usize, c: u64) -> bool {
+        let i = age as usize;
+        if i as f64 == age && i < self.dense.len() {
+            let cell = &mut self.dense[i];
+            if cell[which] < c {
+                return false;
+            }
+            cell[which] -= c;
+            if cell[0] == 0 && cell[1] == 0 {
+                self.dense_used -= 1;
+            }
+            return true;
+        }
+        let key = age.to_bits();
+        let Some(have) = self.map.get_mut(&key) else {
+            return false;
+        };
+        if have[which] < c {
+            return false;
+        }
+        have[which] -= c;
+        if have[0] == 0 && have[1] == 0 {
+            self.map.remove(&key);
+        }
+        true
+    }
+
+    /// Distinct (age, failures or suspensions) observations.
+    fn distinct(&self) -> usize {
+        let count = |v: &[u64; 2]| usize::from(v[0] > 0) + usize::from(v[1] > 0);
+        self.dense.iter().map(count).sum::<usize>() + self.map.values().map(count).sum::<usize>()
+    }
+
+    /// Every age with its [failures, suspensions], sorted by age.
+    fn sorted(&self) -> Vec<(f64, [u64; 2])> {
+        let mut out: Vec<(f64, [u64; 2])> = Vec::with_capacity(self.dense_used + self.map.len());
+        out.extend(
+            self.dense
+                .iter()
+                .enumerate()
+                .filter(|(_, c)| c[0] > 0 || c[1] > 0)
+                .map(|(i, &c)| (i as f64, c)),
+        );
+        if !self.map.is_empty() {
+            let mut rest: Vec<(u64, [u64; 2])> = self.map.iter().map(|(&b, &c)| (b, c)).collect();
+            // Ages are >= +0, so their bit patterns sort as the numbers do.
+            rest.sort_unstable_by_key(|&(b, _)| b);
+            out.extend(rest.into_iter().map(|(b, c)| (f64::from_bits(b), c)));
+            out.sort_by(|a, b| a.0.total_cmp(&b.0));
+        }
+        out
+    }
+}
+
 /// What is known about one (group of) unit life.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Obs {
@@ -106,7 +244,7 @@ pub struct Sample {
     /// folded into +0 and a suspension's latest stored as +infinity.
     groups: AgeMap,
     /// Exact failures and suspensions with entry age 0 (the common case).
-    plain: PlainMap,
+    plain: PlainCounts,
     /// Units per kind: failures, suspensions, left-censored, interval.
     per_kind: [u64; 4],
     /// Units with an entry age above 0.
@@ -220,7 +358,7 @@ impl Sample {
         let kind = o.kind();
         if o.entry == 0.0 && matches!(kind, Kind::Failure | Kind::Suspension) {
             let slot = usize::from(kind == Kind::Suspension);
-            self.plain.entry(o.earliest.to_bits()).or_insert([0, 0])[slot] += c;
+            self.plain.add(o.earliest, slot, c);
         } else {
             *self.groups.entry(Self::key(&o)).or_insert(0) += c;
         }
@@ -228,6 +366,24 @@ impl Sample {
         if o.entry > 0.0 {
             self.truncated += c;
         }
+        Ok(())
+    }
+
+    /// Adds one failure or suspension at an age already checked (finite,
+    /// >= 0, > 0 for a failure): the per-row path of `life_fit`.
+    #[inline]
+    pub fn add_unit(&mut self, age: f64, failed: bool) -> LifeResult<()> {
+        debug_assert!(age.is_finite() && age >= 0.0 && (age > 0.0 || !failed));
+        if self.len() >= MAX_UNITS {
+            return Err(LifeError::bad(
+                "count",
+                "must keep the total below 1e18 units",
+                format!("1 on top of {}", self.len()),
+            ));
+        }
+        let which = usize::from(!failed);
+        self.plain.add(age + 0.0, which, 1);
+        self.per_kind[which] += 1;
         Ok(())
     }
 
@@ -245,14 +401,8 @@ impl Sample {
         };
         if o.entry == 0.0 && matches!(kind, Kind::Failure | Kind::Suspension) {
             let slot = usize::from(kind == Kind::Suspension);
-            let key = o.earliest.to_bits();
-            let have = self.plain.get_mut(&key).ok_or_else(missing)?;
-            if have[slot] < c {
+            if !self.plain.remove(o.earliest, slot, c) {
                 return Err(missing());
-            }
-            have[slot] -= c;
-            if have[0] == 0 && have[1] == 0 {
-                self.plain.remove(&key);
             }
         } else {
             let key = Self::key(&o);
@@ -337,12 +487,7 @@ impl Sample {
 
     /// Number of distinct observations.
     pub fn distinct(&self) -> usize {
-        self.groups.len()
-            + self
-                .plain
-                .values()
-                .map(|v| usize::from(v[0] > 0) + usize::from(v[1] > 0))
-                .sum::<usize>()
+        self.groups.len() + self.plain.distinct()
     }
 
     /// True when every life is an exact failure or a suspension observed from new.
@@ -354,47 +499,60 @@ impl Sample {
     /// every sum over them runs in the same order however the rows arrived
     /// (results are deterministic to the last bit, as SQL requires).
     pub fn obs(&self) -> Vec<Obs> {
-        let mut out: Vec<Obs> = self
-            .groups
-            .iter()
-            .map(|(k, &c)| Obs {
-                earliest: f64::from_bits(k[0]),
-                latest: f64::from_bits(k[1]),
-                entry: f64::from_bits(k[2]),
-                count: c as f64,
-            })
-            .chain(self.plain.iter().flat_map(|(&bits, &[f, s])| {
-                let age = f64::from_bits(bits);
-                [
-                    (f > 0).then_some(Obs {
-                        earliest: age,
-                        latest: age,
-                        entry: 0.0,
-                        count: f as f64,
-                    }),
-                    (s > 0).then_some(Obs {
-                        earliest: age,
-                        latest: f64::INFINITY,
-                        entry: 0.0,
-                        count: s as f64,
-                    }),
-                ]
-                .into_iter()
-                .flatten()
-            }))
-            .collect();
-        out.sort_by(|a, b| {
-            a.earliest
-                .total_cmp(&b.earliest)
-                .then(a.latest.total_cmp(&b.latest))
-                .then(a.entry.total_cmp(&b.entry))
-        });
+        let plain = self.plain.sorted();
+        let mut out: Vec<Obs> = Vec::with_capacity(self.groups.len() + 2 * plain.len());
+        out.extend(self.groups.iter().map(|(k, &c)| Obs {
+            earliest: f64::from_bits(k[0]),
+            latest: f64::from_bits(k[1]),
+            entry: f64::from_bits(k[2]),
+            count: c as f64,
+        }));
+        for (age, [f, s]) in plain {
+            if f > 0 {
+                out.push(Obs {
+                    earliest: age,
+                    latest: age,
+                    entry: 0.0,
+                    count: f as f64,
+                });
+            }
+            if s > 0 {
+                out.push(Obs {
+                    earliest: age,
+                    latest: f64::INFINITY,
+                    entry: 0.0,
+                    count: s as f64,
+                });
+            }
+        }
+        // The plain part comes sorted (a failure before a suspension at the
+        // same age); only other kinds need the sort.
+        if !self.groups.is_empty() {
+            out.sort_by(|a, b| {
+                a.earliest
+                    .total_cmp(&b.earliest)
+                    .then(a.latest.total_cmp(&b.latest))
+                    .then(a.entry.total_cmp(&b.entry))
+            });
+        }
         out
     }
 
     /// Right-censored data merged by age (failures and suspensions per
     /// distinct age), sorted by age; valid when [`Sample::is_right_censored_only`].
     pub fn groups(&self) -> Vec<AgeGroup> {
+        if self.groups.is_empty() {
+            return self
+                .plain
+                .sorted()
+                .into_iter()
+                .map(|(age, [f, s])| AgeGroup {
+                    age,
+                    failures: f as f64,
+                    suspensions: s as f64,
+                })
+                .collect();
+        }
         Self::groups_of(&self.obs())
     }
 
@@ -449,6 +607,71 @@ pub struct AgeGroup {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// The counting table and the map together must hold exactly what a
+    /// plain ordered map of every row holds, whatever the order of arrival,
+    /// as the table grows and moves ages out of the map, and as rows leave.
+    #[test]
+    fn table_and_map_agree_with_an_ordered_map() {
+        use std::collections::BTreeMap;
+        let mut state = 0x9E37_79B9_7F4A_7C15u64;
+        let mut next = move || {
+            state ^= state << 13;
+            state ^= state >> 7;
+            state ^= state << 17;
+            state
+        };
+        for round in 0..20 {
+            let mut s = Sample::new();
+            let mut reference: BTreeMap<(u64, bool), u64> = BTreeMap::new();
+            let mut rows = Vec::new();
+            for _ in 0..(50 + round * 200) {
+                let r = next();
+                let age = match r % 5 {
+                    0 => (r >> 8) as f64 % 40.0,          // small whole numbers
+                    1 => ((r >> 8) % 20_000) as f64,      // whole numbers, table grows
+                    2 => ((r >> 8) % 1000) as f64 + 0.25, // fractional: the map
+                    3 => 1e7 + ((r >> 8) % 5) as f64,     // whole, beyond the table
+                    _ => ((r >> 8) % 3) as f64 * 1e300,   // huge and zero
+                };
+                let failed = age > 0.0 && (r >> 40) % 3 == 0;
+                s.add(age, failed).unwrap();
+                *reference.entry((age.to_bits(), failed)).or_default() += 1;
+                rows.push((age, failed));
+            }
+            let check = |s: &Sample, reference: &BTreeMap<(u64, bool), u64>| {
+                let mut want: Vec<Obs> = reference
+                    .iter()
+                    .filter(|(_, &c)| c > 0)
+                    .map(|(&(bits, failed), &c)| {
+                        let age = f64::from_bits(bits);
+                        Obs {
+                            earliest: age,
+                            latest: if failed { age } else { f64::INFINITY },
+                            entry: 0.0,
+                            count: c as f64,
+                        }
+                    })
+                    .collect();
+                want.sort_by(|a, b| {
+                    a.earliest
+                        .total_cmp(&b.earliest)
+                        .then(a.latest.total_cmp(&b.latest))
+                });
+                assert_eq!(s.obs(), want);
+                assert_eq!(s.distinct(), want.len());
+                let units: u64 = reference.values().sum();
+                assert_eq!(s.len(), units);
+            };
+            check(&s, &reference);
+            for &(age, failed) in rows.iter().step_by(2) {
+                s.remove(age, failed).unwrap();
+                *reference.get_mut(&(age.to_bits(), failed)).unwrap() -= 1;
+            }
+            check(&s, &reference);
+            assert!(s.remove(123.5, true).is_err());
+        }
+    }
 
     #[test]
     fn ties_merge_and_leave() {

@@ -213,10 +213,29 @@ fn exposure(obs: &[Obs], shape: f64) -> Option<f64> {
     Some(total)
 }
 
+/// The age at which every failure can have happened, when the data allow
+/// all of them to be at one age: every exact failure there, every
+/// suspension at or below it, every censored failure's interval containing
+/// it. Then a distribution squeezed onto that age makes the likelihood
+/// grow without bound, and no family with a free spread has a maximum.
+fn single_failure_age(obs: &[Obs]) -> Option<f64> {
+    let mut exact = obs.iter().filter(|o| o.kind() == Kind::Failure);
+    let age = exact.next()?.earliest;
+    let fits = |o: &Obs| match o.kind() {
+        Kind::Failure => o.earliest == age,
+        Kind::Suspension => o.earliest <= age,
+        Kind::LeftCensored | Kind::Interval => o.earliest <= age && age <= o.latest,
+    };
+    obs.iter().all(fits).then_some(age)
+}
+
 /// Fits the model the options ask for; `skipped` counts rows ignored for a NULL age.
 pub fn fit(sample: &Sample, opts: &FitOptions, skipped: u64) -> LifeResult<Model> {
     let fam = opts.family;
-    let obs = sample.obs();
+    // The merged observations, built only when a branch needs them (the
+    // plain Weibull fit works on per-age groups straight from the sample).
+    let obs_cell = std::cell::OnceCell::new();
+    let obs = || obs_cell.get_or_init(|| sample.obs()).as_slice();
     let r = sample.failed_lives();
     let known_weibull_shape = (fam.name == "weibull")
         .then(|| opts.fixed[0])
@@ -230,17 +249,17 @@ pub fn fit(sample: &Sample, opts: &FitOptions, skipped: u64) -> LifeResult<Model
         } else {
             rank::Regress::OnX
         };
-        let rf = rank::rank_regression(fam, &obs, opts.ranks, regress)?;
+        let rf = rank::rank_regression(fam, obs(), opts.ranks, regress)?;
         correlation = Some(rf.correlation);
         let d = (fam.build)(&rf.params)?;
-        let ll = mle::loglik(d.as_ref(), &obs);
+        let ll = mle::loglik(d.as_ref(), obs());
         (rf.params, Vec::new(), ll)
     } else if r == 0 {
         // No failures: only a known Weibull shape gives an answer, the
         // scale whose 63.2% lower confidence bound the data support.
         let (Some(shape), Some(t)) = (
             known_weibull_shape,
-            known_weibull_shape.and_then(|b| exposure(&obs, b)),
+            known_weibull_shape.and_then(|b| exposure(obs(), b)),
         ) else {
             return Err(LifeError::NotEstimable(format!(
                 "no failures among {} lives: a {} fit needs at least one failure \
@@ -263,25 +282,39 @@ pub fn fit(sample: &Sample, opts: &FitOptions, skipped: u64) -> LifeResult<Model
         (
             vec![shape, scale],
             vec![vec![0.0; 2]; 2],
-            mle::loglik(d.as_ref(), &obs),
+            mle::loglik(d.as_ref(), obs()),
         )
     } else if fam.name == "weibull"
         && sample.is_right_censored_only()
         && opts.fixed.iter().all(Option::is_none)
     {
-        let est = weibull_mle::fit(&Sample::groups_of(&obs))?;
-        let d = (fam.build)(&[est.shape, est.scale])?;
+        let est = weibull_mle::fit(&sample.groups())?;
         (
             vec![est.shape, est.scale],
             est.cov.iter().map(|r| r.to_vec()).collect(),
-            mle::loglik(d.as_ref(), &obs),
+            est.loglik,
         )
+    } else if let Some(age) = (fam.k() >= 2 && opts.fixed.iter().all(Option::is_none))
+        .then(|| single_failure_age(obs()))
+        .flatten()
+    {
+        // Checked before any search: on such data the likelihood grows
+        // without bound as the spread shrinks, and a search would chase it
+        // for seconds (measured: 2 to 18 s for the gamma) before failing.
+        return Err(LifeError::NotEstimable(format!(
+            "the {} fit has no maximum: every failure is at age {} and no \
+             other life contradicts a failure exactly there, so the spread \
+             shrinks to zero; failures at different ages (or a parameter \
+             fixed in the options) are needed",
+            fam.name,
+            show_number(age)
+        )));
     } else if fam.param_index("location") == Some(2) && opts.fixed.iter().all(Option::is_none) {
-        let est = mle::fit_with_location(fam, &obs)?;
+        let est = mle::fit_with_location(fam, obs())?;
         (est.params, est.cov, est.loglik)
     } else if let (Some(shape), Some(t)) = (
         known_weibull_shape,
-        known_weibull_shape.and_then(|b| exposure(&obs, b)),
+        known_weibull_shape.and_then(|b| exposure(obs(), b)),
     ) {
         // Known Weibull shape, exact and right-censored lives: the scale in
         // closed form, eta = (sum (t^beta - entry^beta) / r)^(1/beta), with
@@ -299,12 +332,12 @@ pub fn fit(sample: &Sample, opts: &FitOptions, skipped: u64) -> LifeResult<Model
                 vec![0.0, 0.0],
                 vec![0.0, scale * scale / (shape * shape * rf)],
             ],
-            mle::loglik(d.as_ref(), &obs),
+            mle::loglik(d.as_ref(), obs()),
         )
     } else {
-        let est = mle::fit(fam, &obs, None, &opts.fixed)?;
+        let est = mle::fit(fam, obs(), None, &opts.fixed)?;
         if let Some(shape) = known_weibull_shape {
-            known = exposure(&obs, shape).map(|t| KnownShape {
+            known = exposure(obs(), shape).map(|t| KnownShape {
                 exposure: t,
                 failures: r,
             });
@@ -353,7 +386,7 @@ pub fn fit(sample: &Sample, opts: &FitOptions, skipped: u64) -> LifeResult<Model
                 }
                 .to_string()
             }),
-            sample: opts.keep_sample.then_some(obs),
+            sample: opts.keep_sample.then(|| obs().to_vec()),
         }),
     })
 }
