@@ -57,6 +57,10 @@ pub fn show_number(x: f64) -> String {
         "NaN".to_string()
     } else if x.is_infinite() {
         if x > 0.0 { "Inf" } else { "-Inf" }.to_string()
+    } else if x != 0.0 && !(1e-6..1e16).contains(&x.abs()) {
+        // Shortest round-trip digits with an exponent: 1e300 rather than
+        // three hundred digits in a message.
+        format!("{x:e}")
     } else {
         format!("{x}")
     }

@@ -394,6 +394,9 @@ pub static CURVE: TableSpec = TableSpec {
     },
 };
 
+/// Most failed units `life_plot_points` plots.
+const MAX_PLOT_POINTS: f64 = 100_000.0;
+
 /// `life_plot_points(model [, conf [, ranks]])`: probability-plot rows.
 pub static PLOT_POINTS: TableSpec = TableSpec {
     name: "life_plot_points",
@@ -443,6 +446,18 @@ pub static PLOT_POINTS: TableSpec = TableSpec {
                     "plot points need the data: fit with options {\"keep_sample\": true}".into(),
                 )
             })?;
+        // One row per failed unit, each held until SQLite has read it
+        // (about 400 bytes a row, measured: 443 MB at 1e6 rows): a plot
+        // for a dashboard needs far fewer.
+        let failed_units: f64 = obs.iter().filter(|o| o.failed()).map(|o| o.count).sum();
+        if failed_units > MAX_PLOT_POINTS {
+            return Err(LifeError::NotEstimable(format!(
+                "plots one point per failed unit, at most {MAX_PLOT_POINTS}; this model \
+                 holds {} failed units (plot a sample of them, or draw the fitted line \
+                 with life_curve)",
+                show_number(failed_units)
+            )));
+        }
         let d = m.dist.as_ref();
         let y_of = |f: f64| real((lin.y)(f));
         // The fitted line and its band at an age.
