@@ -331,3 +331,101 @@ fn old_host_guard_unit_tests_pass() {
         .unwrap();
     assert!(status.success());
 }
+
+/// A real SQLite loader reporting an old version: the SQLite source that
+/// rusqlite bundles, with its version number set to 3.33.0, compiled into a
+/// small host program that loads the library as any application would. The
+/// guard must refuse with a message and leave the connection usable.
+/// (No SQLite older than 3.34.1 is available offline; the guard reads only
+/// the version from the API table before touching anything else, so the
+/// newer table behind the old number does not change what is tested.)
+#[test]
+fn a_real_loader_reporting_sqlite_3_33_gets_a_clear_refusal() {
+    let home = std::env::var_os("CARGO_HOME")
+        .map(PathBuf::from)
+        .or_else(|| std::env::var_os("HOME").map(|h| Path::new(&h).join(".cargo")))
+        .expect("CARGO_HOME or HOME");
+    let registry = home.join("registry").join("src");
+    let source = std::fs::read_dir(&registry)
+        .expect("the cargo registry")
+        .flatten()
+        .flat_map(|index| {
+            std::fs::read_dir(index.path())
+                .into_iter()
+                .flatten()
+                .flatten()
+        })
+        .map(|krate| krate.path().join("sqlite3").join("sqlite3.c"))
+        .find(|p| {
+            p.exists()
+                && p.parent()
+                    .and_then(|d| d.parent())
+                    .and_then(|d| d.file_name())
+                    .is_some_and(|n| n.to_string_lossy().starts_with("libsqlite3-sys-"))
+        })
+        .expect("libsqlite3-sys' bundled sqlite3.c in the cargo registry");
+    let dir = Path::new(env!("CARGO_TARGET_TMPDIR")).join("old-host");
+    std::fs::create_dir_all(&dir).unwrap();
+    let original = std::fs::read_to_string(&source).unwrap();
+    let mut patched = String::with_capacity(original.len());
+    let mut changed = 0;
+    for line in original.split_inclusive('\n') {
+        if line.starts_with("#define SQLITE_VERSION_NUMBER ") {
+            patched.push_str("#define SQLITE_VERSION_NUMBER 3033000\n");
+            changed += 1;
+        } else if line.starts_with("#define SQLITE_VERSION ") {
+            patched.push_str("#define SQLITE_VERSION \"3.33.0\"\n");
+            changed += 1;
+        } else {
+            patched.push_str(line);
+        }
+    }
+    assert_eq!(changed, 2, "version lines in {}", source.display());
+    std::fs::write(dir.join("sqlite3.c"), patched).unwrap();
+    std::fs::copy(source.with_file_name("sqlite3.h"), dir.join("sqlite3.h")).unwrap();
+    std::fs::write(
+        dir.join("host.c"),
+        r#"#include <stdio.h>
+#include "sqlite3.h"
+int main(int argc, char **argv) {
+    sqlite3 *db;
+    char *err = 0;
+    sqlite3_stmt *st;
+    if (sqlite3_open(":memory:", &db) != SQLITE_OK) return 2;
+    sqlite3_enable_load_extension(db, 1);
+    int rc = sqlite3_load_extension(db, argv[1], 0, &err);
+    printf("version %s\nrc %d\nmessage %s\n", sqlite3_libversion(), rc, err ? err : "(none)");
+    sqlite3_free(err);
+    if (sqlite3_prepare_v2(db, "SELECT 6 * 7", -1, &st, 0) != SQLITE_OK) return 3;
+    if (sqlite3_step(st) != SQLITE_ROW) return 4;
+    printf("after %d\n", sqlite3_column_int(st, 0));
+    sqlite3_finalize(st);
+    sqlite3_close(db);
+    return 0;
+}
+"#,
+    )
+    .unwrap();
+    let host = dir.join("host");
+    let built = Command::new("cc")
+        .current_dir(&dir)
+        .args(["-O0", "-o"])
+        .arg(&host)
+        .args(["host.c", "sqlite3.c", "-lpthread", "-ldl", "-lm"])
+        .output()
+        .expect("a C compiler (cc) for the old-host test");
+    assert!(built.status.success(), "{}", text(&built.stderr));
+    let out = Command::new(&host)
+        .arg(format!("{}.so", library()))
+        .output()
+        .unwrap();
+    let stdout = text(&out.stdout);
+    assert!(out.status.success(), "{stdout}{}", text(&out.stderr));
+    assert!(stdout.contains("version 3.33.0\n"), "{stdout}");
+    assert!(stdout.contains("rc 1\n"), "{stdout}");
+    assert!(
+        stdout.contains("lifedata needs SQLite 3.34.1 or newer; this host runs 3.33.0\n"),
+        "{stdout}"
+    );
+    assert!(stdout.contains("after 42\n"), "{stdout}");
+}
