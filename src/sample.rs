@@ -85,6 +85,9 @@ impl PlainCounts {
         if i < self.dense.len() {
             return Some(i);
         }
+        if i >= DENSE_MAX {
+            return None;
+        }
         let want = (i + 1).next_power_of_two().max(64);
         let allowed = (8 * self.added as usize).min(DENSE_MAX);
         if want > allowed {
@@ -632,7 +635,9 @@ mod tests {
                     1 => ((r >> 8) % 20_000) as f64,      // whole numbers, table grows
                     2 => ((r >> 8) % 1000) as f64 + 0.25, // fractional: the map
                     3 => 1e7 + ((r >> 8) % 5) as f64,     // whole, beyond the table
-                    _ => ((r >> 8) % 3) as f64 * 1e300,   // huge and zero
+                    // zero, huge, and whole numbers at the edge of usize
+                    _ => [0.0, 1e300, 2f64.powi(64), 2f64.powi(63), 2f64.powi(53)]
+                        [((r >> 8) % 5) as usize],
                 };
                 let failed = age > 0.0 && (r >> 40) % 3 == 0;
                 s.add(age, failed).unwrap();

@@ -294,6 +294,23 @@ pub fn fit(sample: &Sample, opts: &FitOptions, skipped: u64) -> LifeResult<Model
             est.cov.iter().map(|r| r.to_vec()).collect(),
             est.loglik,
         )
+    } else if fam.name == "exponential"
+        && opts.fixed.iter().all(Option::is_none)
+        && sample.left_censored() == 0
+        && sample.interval_censored() == 0
+    {
+        // Exact failures and suspensions, late entry allowed: the maximum in
+        // closed form, the total time on test over the failures,
+        // theta = sum count (t - entry) / r, with variance theta^2 / r.
+        let time_on_test: f64 = obs().iter().map(|o| o.count * (o.earliest - o.entry)).sum();
+        let rf = r as f64;
+        let scale = time_on_test / rf;
+        let d = (fam.build)(&[scale])?;
+        (
+            vec![scale],
+            vec![vec![scale * scale / rf]],
+            mle::loglik(d.as_ref(), obs()),
+        )
     } else if let Some(age) = (fam.k() >= 2 && opts.fixed.iter().all(Option::is_none))
         .then(|| single_failure_age(obs()))
         .flatten()
