@@ -897,3 +897,53 @@ fn cost_curve_with_an_infinite_start_and_no_optimum() {
     let ry = lay.to_px(0.0, c.run_to_failure_rate.unwrap()).1;
     assert!(ry > lay.area.top + 0.4 * lay.area.height() && ry < lay.area.bottom);
 }
+
+/// A fleet-sized plot stays small: markers whose centres fall in the same
+/// half-pixel cell are drawn once, yet every failure lies within 0.71 px
+/// (a cell's diagonal) of a drawn marker, and every marker sits on a failure.
+#[test]
+fn a_hundred_thousand_failures_make_a_small_picture_with_every_failure_shown() {
+    let model = (family("weibull").unwrap().build)(&[2.0, 1000.0]).unwrap();
+    let n = 100_000;
+    let failures: Vec<(f64, f64)> = (1..=n)
+        .map(|i| {
+            let f = (i as f64 - 0.3) / (n as f64 + 0.4);
+            (model.quantile(f).round().max(1.0), f)
+        })
+        .collect();
+    let mut p = plot(family("weibull").unwrap(), model.as_ref());
+    p.failures = failures;
+    let svg = probability_plot_svg(&p).unwrap();
+    assert!(svg.len() < 600_000, "{} bytes", svg.len());
+    let doc = parse(&svg);
+    let lay = p.layout().unwrap();
+    let markers: Vec<(f64, f64)> = with_class(&doc, "failure")
+        .iter()
+        .map(|m| (attr(m, "cx"), attr(m, "cy")))
+        .collect();
+    assert!(markers.len() < 10_000, "{} markers", markers.len());
+    // Markers in x order to find the near ones quickly.
+    let mut by_x = markers.clone();
+    by_x.sort_by(|a, b| a.0.total_cmp(&b.0));
+    for &(age, f) in &p.failures {
+        let (x, y) = lay.to_px(age, f);
+        let from = by_x.partition_point(|m| m.0 < x - 0.8);
+        let near = by_x[from..]
+            .iter()
+            .take_while(|m| m.0 <= x + 0.8)
+            .any(|m| (m.0 - x).hypot(m.1 - y) <= 0.71 + PX);
+        assert!(near, "failure ({age}, {f}) at ({x}, {y}) has no marker");
+    }
+    let mut placed: Vec<(f64, f64)> = p.failures.iter().map(|&(a, f)| lay.to_px(a, f)).collect();
+    placed.sort_by(|a, b| a.0.total_cmp(&b.0));
+    for &(cx, cy) in &markers {
+        let from = placed.partition_point(|q| q.0 < cx - PX);
+        assert!(
+            placed[from..]
+                .iter()
+                .take_while(|q| q.0 <= cx + PX)
+                .any(|q| (q.1 - cy).abs() <= PX),
+            "marker at ({cx}, {cy}) belongs to no failure"
+        );
+    }
+}

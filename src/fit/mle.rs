@@ -531,16 +531,18 @@ pub fn fit_with_location(family: &'static Family, obs: &[Obs]) -> LifeResult<Est
     }
     if location > upper * (1.0 - 1e-4) {
         return Err(LifeError::NotEstimable(format!(
-            "the {} location runs to the first failure ({upper}): the likelihood has no \
+            "the {} location runs to the first failure ({}): the likelihood has no \
              interior maximum, so no failure-free period can be estimated; use the \
              2-parameter family",
-            family.name
+            family.name,
+            crate::error::show_number(upper)
         )));
     }
     let at = profile.at(location).ok_or_else(|| {
         LifeError::NoConvergence(format!(
-            "the {} fit failed at location {location}",
-            family.name
+            "the {} fit failed at location {}",
+            family.name,
+            crate::error::show_number(location)
         ))
     })?;
     if location <= 1e-6 * upper {

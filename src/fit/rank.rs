@@ -122,8 +122,9 @@ pub fn plotting_positions(obs: &[Obs], positions: Positions) -> LifeResult<Vec<P
     let failed_units: f64 = units.iter().filter(|u| u.1).map(|u| u.2).sum();
     if failed_units > MAX_PLOTTED_FAILURES {
         return Err(LifeError::NotEstimable(format!(
-            "plotting positions give one point per failed unit; {failed_units} failures \
-             is more than the {MAX_PLOTTED_FAILURES} this extension plots"
+            "plotting positions give one point per failed unit; {} failures \
+             is more than the {MAX_PLOTTED_FAILURES} this extension plots",
+            show_number(failed_units)
         )));
     }
 

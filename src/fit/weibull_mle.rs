@@ -17,7 +17,7 @@
 //! Ages are shifted by the largest log-age so every t^beta lies in [0, 1]:
 //! no overflow for shapes up to 20 and ages up to 1e9 and beyond.
 
-use crate::error::{LifeError, LifeResult};
+use crate::error::{show_number, LifeError, LifeResult};
 use crate::sample::AgeGroup;
 
 /// A Weibull maximum likelihood estimate with its observed-information covariance.
@@ -91,9 +91,10 @@ fn prepare(groups: &[AgeGroup]) -> LifeResult<Prepared> {
     }
     if oldest_failure_only {
         return Err(LifeError::NotEstimable(format!(
-            "all {failures} failure(s) are at the largest age {t_max} with no \
+            "all {failures} failure(s) are at the largest age {} with no \
              younger failure, so nothing pins the Weibull shape; \
-             more failures (or a known shape) are needed"
+             more failures (or a known shape) are needed",
+            show_number(t_max)
         )));
     }
     let mean_fail_u = sum_fu / failures;
@@ -209,8 +210,10 @@ pub fn fit(groups: &[AgeGroup]) -> LifeResult<WeibullEstimate> {
         beta = next;
         if iterations > 500 || lo >= MAX_SHAPE || beta >= MAX_SHAPE {
             return Err(LifeError::NoConvergence(format!(
-                "the Weibull shape did not settle (bracket {lo} to {hi}); \
-                 the data may not determine a finite shape"
+                "the Weibull shape did not settle (bracket {} to {}); \
+                 the data may not determine a finite shape",
+                show_number(lo),
+                show_number(hi)
             )));
         }
     };
@@ -221,7 +224,9 @@ pub fn fit(groups: &[AgeGroup]) -> LifeResult<WeibullEstimate> {
     let scale = ln_scale.exp();
     if !(scale.is_finite() && scale > 0.0 && beta.is_finite() && beta < MAX_SHAPE) {
         return Err(LifeError::NoConvergence(format!(
-            "the Weibull fit gave shape {beta} and scale {scale}, out of range"
+            "the Weibull fit gave shape {} and scale {}, out of range",
+            show_number(beta),
+            show_number(scale)
         )));
     }
     // With l = ln(t/eta) = u - c and z = w (t/eta)^beta: sum z = r at the

@@ -1131,12 +1131,15 @@ pub fn probability_plot_svg(p: &ProbabilityPlot) -> LifeResult<String> {
         s.polyline(&run, fit_stroke, "fit");
     }
 
-    // Failures, each place once.
+    // Failures, each place once: a marker whose centre falls in the same
+    // half-pixel cell as one already drawn would not show (markers are 8 px
+    // wide), so a model of a million failures still makes a small picture.
     s.open_group("failures");
     let mut seen = HashSet::new();
+    let cell = |v: f64| (2.0 * v).round() as i64;
     for &(age, f) in &data.failures {
         let (x, y) = lay.to_px(age, f);
-        if seen.insert((svg::num(x), svg::num(y))) {
+        if seen.insert((cell(x), cell(y))) {
             s.circle(
                 (x, y),
                 4.2,
@@ -1162,7 +1165,7 @@ pub fn probability_plot_svg(p: &ProbabilityPlot) -> LifeResult<String> {
         let mut seen = HashSet::new();
         for &age in &data.suspensions {
             let x = lay.x_px(age);
-            if seen.insert(svg::num(x)) {
+            if seen.insert(cell(x)) {
                 s.line(
                     (x, strip.top + 2.0),
                     (x, strip.bottom - 2.0),
