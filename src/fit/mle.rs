@@ -281,7 +281,11 @@ pub fn invert(m: &[Vec<f64>]) -> Option<Vec<Vec<f64>>> {
 /// Nelder-Mead stops on the spread of its simplex, which leaves the optimum
 /// only to ~1e-8 relative, and argmin's Newton solver has no step-halving
 /// guard against a finite-difference Hessian that is not yet reliable; two
-/// to five steps here bring the parameters to ~1e-12 relative.
+/// to five steps here bring the parameters to ~1e-12 relative. It stops at
+/// the first step below 1e-11 relative: smaller steps only follow the
+/// finite-difference noise (measured on a 1 000-life lognormal fit: every
+/// later step wandered by 1e-13 to 1e-12 without lowering the objective, and
+/// running out the 30 steps took three quarters of the fit's time).
 fn polish(f: &dyn Fn(&[f64]) -> f64, mut x: Vec<f64>) -> Vec<f64> {
     let mut fx = f(&x);
     for _ in 0..30 {
@@ -304,7 +308,7 @@ fn polish(f: &dyn Fn(&[f64]) -> f64, mut x: Vec<f64>) -> Vec<f64> {
                 let small = y
                     .iter()
                     .zip(&x)
-                    .all(|(a, b)| (a - b).abs() <= 1e-13 * b.abs().max(1.0));
+                    .all(|(a, b)| (a - b).abs() <= 1e-11 * b.abs().max(1.0));
                 x = y;
                 fx = fy.min(fx);
                 moved = !small;
