@@ -68,6 +68,9 @@ struct PlainCounts {
     dense: Vec<[u64; 2]>,
     /// Distinct ages with a nonzero count in `dense`.
     dense_used: usize,
+    /// One past the largest table index ever counted (the sorted listing
+    /// scans only up to it).
+    top: usize,
     map: PlainMap,
     /// Rows added (bounds the table's growth).
     added: u64,
@@ -118,6 +121,7 @@ impl PlainCounts {
                 let i = f64::from_bits(b) as usize;
                 self.dense[i] = c;
                 self.dense_used += 1;
+                self.top = self.top.max(i + 1);
             }
         }
     }
@@ -132,6 +136,7 @@ impl PlainCounts {
                     self.dense_used += 1;
                 }
                 cell[which] += c;
+                self.top = self.top.max(i + 1);
             }
             None => self.map.entry(age.to_bits()).or_insert([0, 0])[which] += c,
         }
@@ -175,7 +180,7 @@ impl PlainCounts {
     fn sorted(&self) -> Vec<(f64, [u64; 2])> {
         let mut out: Vec<(f64, [u64; 2])> = Vec::with_capacity(self.dense_used + self.map.len());
         out.extend(
-            self.dense
+            self.dense[..self.top]
                 .iter()
                 .enumerate()
                 .filter(|(_, c)| c[0] > 0 || c[1] > 0)
