@@ -81,25 +81,24 @@ unsafe fn value<'a>(v: *mut ffi::sqlite3_value) -> ValueRef<'a> {
     match ffi::sqlite3_value_type(v) {
         ffi::SQLITE_INTEGER => ValueRef::Integer(ffi::sqlite3_value_int64(v)),
         ffi::SQLITE_FLOAT => ValueRef::Real(ffi::sqlite3_value_double(v)),
-        ffi::SQLITE_TEXT => {
-            let p = ffi::sqlite3_value_text(v);
-            let n = ffi::sqlite3_value_bytes(v);
-            if p.is_null() || n <= 0 {
-                ValueRef::Text(&[])
-            } else {
-                ValueRef::Text(std::slice::from_raw_parts(p, n as usize))
-            }
-        }
-        ffi::SQLITE_BLOB => {
-            let p = ffi::sqlite3_value_blob(v);
-            let n = ffi::sqlite3_value_bytes(v);
-            if p.is_null() || n <= 0 {
-                ValueRef::Blob(&[])
-            } else {
-                ValueRef::Blob(std::slice::from_raw_parts(p.cast::<u8>(), n as usize))
-            }
-        }
+        ffi::SQLITE_TEXT => ValueRef::Text(bytes(ffi::sqlite3_value_text(v), v)),
+        ffi::SQLITE_BLOB => ValueRef::Blob(bytes(ffi::sqlite3_value_blob(v).cast(), v)),
         _ => ValueRef::Null,
+    }
+}
+
+/// The bytes of a text or blob value whose data pointer is `p` (empty for
+/// a null pointer: an empty blob, or text SQLite could not convert).
+///
+/// # Safety
+/// As [`value`]; `p` must be what SQLite returned for `v`.
+#[inline]
+unsafe fn bytes<'a>(p: *const u8, v: *mut ffi::sqlite3_value) -> &'a [u8] {
+    let n = ffi::sqlite3_value_bytes(v);
+    if p.is_null() || n <= 0 {
+        &[]
+    } else {
+        std::slice::from_raw_parts(p, n as usize)
     }
 }
 

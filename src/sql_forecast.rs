@@ -91,7 +91,7 @@ pub struct ForecastState {
 pub struct LifeForecast;
 
 fn err(e: impl std::fmt::Display) -> rusqlite::Error {
-    rusqlite::Error::UserFunctionError(format!("{NAME}: {e}").replace('\0', "\\0").into())
+    rusqlite::Error::UserFunctionError(crate::sql::error_text(NAME, e).into())
 }
 
 fn num(v: ValueRef<'_>, arg: &'static str) -> std::result::Result<Option<f64>, LifeError> {

@@ -201,7 +201,7 @@ unsafe impl VTabCursor for LifeCursor<'_> {
 }
 
 fn user_error(func: &str, e: impl std::fmt::Display) -> rusqlite::Error {
-    rusqlite::Error::ModuleError(format!("{func}: {e}").replace('\0', "\\0"))
+    rusqlite::Error::ModuleError(crate::sql::error_text(func, e))
 }
 
 /// Registers a table function.

@@ -5,33 +5,18 @@
 //! build as the bundled SQLite these tests link (rusqlite's `bundled` and
 //! `loadable_extension` features must not meet).
 
+mod common;
+
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output, Stdio};
 use std::sync::OnceLock;
 
 const ROOT: &str = env!("CARGO_MANIFEST_DIR");
 
-/// Builds `liblifedata.so` once per test run and returns its path without
-/// the `.so`, as a user would type it after `.load`.
+/// The built library's path without the `.so`, as a user would type it
+/// after `.load` (see `common::extension_library`).
 fn library() -> &'static str {
-    static LIB: OnceLock<String> = OnceLock::new();
-    LIB.get_or_init(|| {
-        let target = Path::new(env!("CARGO_TARGET_TMPDIR")).join("extension-build");
-        let status = Command::new(env!("CARGO"))
-            .args(["build", "--release", "-p", "lifedata-ext", "--target-dir"])
-            .arg(&target)
-            .current_dir(ROOT)
-            .status()
-            .expect("run cargo build for the extension");
-        assert!(status.success(), "building the extension failed");
-        let lib = target.join("release").join("liblifedata");
-        assert!(
-            lib.with_extension("so").exists(),
-            "{} missing",
-            lib.display()
-        );
-        lib.to_string_lossy().into_owned()
-    })
+    common::extension_library().to_str().expect("a UTF-8 path")
 }
 
 fn sqlite3_shell() -> &'static str {

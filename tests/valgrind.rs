@@ -12,6 +12,8 @@
 //! No suppression file is used: on Debian 12 (sqlite3 3.40.1, glibc 2.36,
 //! valgrind 3.19) the shell and the library run clean.
 
+mod common;
+
 use std::io::Write;
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output, Stdio};
@@ -21,21 +23,9 @@ const ROOT: &str = env!("CARGO_MANIFEST_DIR");
 /// Exit status valgrind is told to use when it found a memory error.
 const MEMCHECK_ERROR: i32 = 99;
 
-/// Builds `liblifedata.so` the way tests/extension.rs does (its own target
-/// directory, the same one, so a `cargo test` run builds it once) and
-/// returns its path without the `.so`.
+/// The built library (see `common::extension_library`).
 fn library() -> PathBuf {
-    let target = Path::new(env!("CARGO_TARGET_TMPDIR")).join("extension-build");
-    let status = Command::new(env!("CARGO"))
-        .args(["build", "--release", "-p", "lifedata-ext", "--target-dir"])
-        .arg(&target)
-        .current_dir(ROOT)
-        .status()
-        .expect("run cargo build for the extension");
-    assert!(status.success(), "building the extension failed");
-    let lib = target.join("release").join("liblifedata");
-    assert!(lib.with_extension("so").exists());
-    lib
+    common::extension_library().to_path_buf()
 }
 
 fn have(program: &str) -> bool {

@@ -30,21 +30,9 @@ pub fn loglik(d: &dyn LifeDistribution, obs: &[Obs]) -> f64 {
             // below age 0, such as the normal, F(b) includes it.)
             Kind::LeftCensored => (-(-d.cum_hazard(o.latest)).exp_m1()).ln(),
             Kind::Interval => {
-                // ln(R(a) - R(b)) = -H(a) + ln(1 - exp(-(H(b) - H(a)))).
-                // The increment needs the family's careful form (which may
-                // integrate the hazard) only when it is small: from an
-                // increment of 1 up, the plain difference is as exact as
-                // H(a) itself in the sum, and integrating a spiky hazard
-                // (a gamma of huge shape) cost seconds per term (measured
-                // while fuzzing: a 77 s fit).
-                let ha = d.cum_hazard(o.earliest);
-                let plain = d.cum_hazard(o.latest) - ha;
-                let dh = if plain >= 1.0 {
-                    plain
-                } else {
-                    d.cum_hazard_increment(o.earliest, o.latest - o.earliest)
-                };
-                -ha + (-(-dh).exp_m1()).ln()
+                // ln(R(a) - R(b)) = -H(a) + ln(1 - exp(-(H(b) - H(a))))
+                let dh = d.cum_hazard_increment(o.earliest, o.latest - o.earliest);
+                -d.cum_hazard(o.earliest) + (-(-dh).exp_m1()).ln()
             }
         };
         let entry = if o.entry > 0.0 {
@@ -495,8 +483,9 @@ impl LocationProfile<'_> {
 impl LocationProfile<'_> {
     /// Fast path for the 3-parameter Weibull with exact failures and
     /// suspensions observed from new: at a fixed location the fit is the
-    /// 2-parameter Weibull of the shifted ages, solved by the profile Newton
-    /// solver in a few passes. Measured: the generic search made a
+    /// 2-parameter Weibull of the shifted ages (suspensions before the
+    /// location add nothing to either likelihood), solved by the Weibull
+    /// solver in a few passes, log-likelihood included. Measured: the generic search made a
     /// 1 000-life fit take 3.5 s; this takes milliseconds.
     fn weibull_shifted(&self, location: f64) -> Option<Estimate> {
         if self.family.name != "weibull3"
@@ -523,15 +512,13 @@ impl LocationProfile<'_> {
         }
         let est = crate::fit::weibull_mle::fit(&shifted.groups()).ok()?;
         let params = vec![est.shape, est.scale, location];
-        let d = (self.family.build)(&params).ok()?;
-        let ll = loglik(d.as_ref(), self.obs);
         let mut cov = vec![vec![0.0; 3]; 3];
         for (row, est_row) in cov.iter_mut().zip(est.cov.iter()) {
             row[..2].copy_from_slice(est_row);
         }
         Some(Estimate {
             params,
-            loglik: ll,
+            loglik: est.loglik,
             cov,
         })
     }

@@ -1,4 +1,5 @@
-//! Helpers shared by the reference tests: reading committed fixtures.
+//! Helpers shared by the tests: reading committed fixtures, building the
+//! loadable library.
 #![allow(dead_code)] // each test file uses its own subset
 
 use lifedata::sample::Sample;
@@ -34,4 +35,30 @@ pub fn sample_of(rows: &Value) -> Sample {
             .unwrap();
     }
     s
+}
+
+/// Builds `liblifedata.so` once per test binary, with its own target
+/// directory (rusqlite's `bundled` and `loadable_extension` features must
+/// not meet in one build; every test binary uses the same directory, so a
+/// `cargo test` run compiles it once), and returns its path without the
+/// `.so`, as a user types it after `.load`.
+pub fn extension_library() -> &'static std::path::Path {
+    static LIB: std::sync::OnceLock<std::path::PathBuf> = std::sync::OnceLock::new();
+    LIB.get_or_init(|| {
+        let target = std::path::Path::new(env!("CARGO_TARGET_TMPDIR")).join("extension-build");
+        let status = std::process::Command::new(env!("CARGO"))
+            .args(["build", "--release", "-p", "lifedata-ext", "--target-dir"])
+            .arg(&target)
+            .current_dir(env!("CARGO_MANIFEST_DIR"))
+            .status()
+            .expect("run cargo build for the extension");
+        assert!(status.success(), "building the extension failed");
+        let lib = target.join("release").join("liblifedata");
+        assert!(
+            lib.with_extension("so").exists(),
+            "{} missing",
+            lib.display()
+        );
+        lib
+    })
 }
